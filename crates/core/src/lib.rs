@@ -1,0 +1,1 @@
+//! hedgerow-core

@@ -1,0 +1,39 @@
+//! Project tasks (build, test, generate, serve), run as `cargo xtask <task>`.
+
+mod demo;
+mod test;
+mod web;
+
+use std::path::PathBuf;
+
+const USAGE: &str = "usage: cargo xtask <task> [args]
+
+tasks:
+  test        run every test: cargo tests, the Python reference checks (creates .venv), end-to-end
+  gen-demo    regenerate demo-data/ from the fixed seed
+  build-web   build the page into dist/
+  serve       build the page and serve it on 127.0.0.1";
+
+fn main() -> anyhow::Result<()> {
+    let mut args = std::env::args().skip(1);
+    let task = args.next().unwrap_or_default();
+    let rest: Vec<String> = args.collect();
+    match task.as_str() {
+        "test" => test::run(&rest),
+        "gen-demo" => demo::run(&rest),
+        "build-web" => web::build(&rest).map(|_| ()),
+        "serve" => web::serve(&rest),
+        _ => {
+            eprintln!("{USAGE}");
+            std::process::exit(2);
+        }
+    }
+}
+
+/// The workspace root, found from this crate's manifest directory.
+pub fn root() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .parent()
+        .map(PathBuf::from)
+        .unwrap_or_else(|| PathBuf::from("."))
+}
