@@ -1,1 +1,159 @@
-fn main() {}
+//! `hedgerow`: the command line over hedgerow-core: evaluate, decode, curve and profile.
+
+mod load;
+mod report;
+
+use std::io::Write;
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use clap::{Args, Parser, Subcommand};
+use hedgerow_core::{decode_row, evaluate, exact_curve, Profile};
+
+use crate::load::{Failure, Loaded};
+
+#[derive(Parser)]
+#[command(name = "hedgerow", version, about = "Decode taxonomy predictions under per-depth stopping thresholds and score them.")]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Score a batch: counts, precision, specificity, reward, stop shares, hierarchical P/R/F1.
+    Evaluate {
+        #[command(flatten)]
+        input: Input,
+        #[command(flatten)]
+        settings: SettingArgs,
+        /// Print one JSON object instead of a table.
+        #[arg(long)]
+        json: bool,
+    },
+    /// Write one CSV row per input row: prediction, depth, probability, outcome and full path.
+    Decode {
+        #[command(flatten)]
+        input: Input,
+        #[command(flatten)]
+        settings: SettingArgs,
+        /// Output file (default: standard output).
+        #[arg(long)]
+        out: Option<PathBuf>,
+    },
+    /// Write the exact precision/specificity curve for one threshold shared by all depths (CSV).
+    Curve {
+        #[command(flatten)]
+        input: Input,
+        #[command(flatten)]
+        settings: SettingArgs,
+        #[arg(long)]
+        out: Option<PathBuf>,
+    },
+    /// Write a threshold profile from the given settings, scored on the batch.
+    Profile {
+        #[command(flatten)]
+        input: Input,
+        #[command(flatten)]
+        settings: SettingArgs,
+        /// Output file (default: standard output).
+        #[arg(long)]
+        out: Option<PathBuf>,
+    },
+}
+
+#[derive(Args, Clone)]
+pub struct Input {
+    /// Taxonomy: CSV with `id,parent[,name]` or a JSON array of {"id","parent","name"}.
+    #[arg(long)]
+    pub taxonomy: PathBuf,
+    /// Logits: .npy of shape (rows, nodes), float16/32/64.
+    #[arg(long)]
+    pub logits: PathBuf,
+    /// Labels: CSV with a `label` column (node id, empty = background) or .npy of column indices (-1 = background).
+    #[arg(long)]
+    pub labels: PathBuf,
+    /// Objectness: .npy of shape (rows,), probabilities in [0, 1].
+    #[arg(long)]
+    pub objectness: Option<PathBuf>,
+}
+
+#[derive(Args, Clone, Default)]
+pub struct SettingArgs {
+    /// Stopping rule: cumulative (P(node) ≥ t) or conditional (p(node | parent) ≥ t). Default cumulative.
+    #[arg(long)]
+    pub rule: Option<String>,
+    /// Per-depth thresholds t_1,t_2,… (a shorter list repeats its last value). Default 0.5.
+    #[arg(long)]
+    pub thresholds: Option<String>,
+    /// Object threshold t_0 on P(root) (only with --objectness). Default 0.5.
+    #[arg(long)]
+    pub object_threshold: Option<String>,
+    /// Per-depth softmax temperatures T_1,T_2,… Default 1.
+    #[arg(long)]
+    pub temperatures: Option<String>,
+    /// How precision counts predictions below a coarse label: credit, penalize or exclude. Default credit.
+    #[arg(long)]
+    pub unverifiable: Option<String>,
+    /// Start from a saved threshold profile; the flags above override its values.
+    #[arg(long)]
+    pub profile: Option<PathBuf>,
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match run(cli) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(Failure::Input(messages)) => {
+            for m in messages {
+                eprintln!("error: {m}");
+            }
+            ExitCode::from(2)
+        }
+        Err(Failure::Other(e)) => {
+            eprintln!("error: {e:#}");
+            ExitCode::from(1)
+        }
+    }
+}
+
+fn run(cli: Cli) -> Result<(), Failure> {
+    match cli.command {
+        Command::Evaluate { input, settings, json } => {
+            let loaded = Loaded::load(&input, &settings)?;
+            let metrics = evaluate(&loaded.taxonomy, &loaded.batch, &loaded.settings);
+            let text = if json {
+                serde_json::to_string_pretty(&metrics).map_err(|e| Failure::Other(e.into()))? + "\n"
+            } else {
+                report::table(&loaded, &metrics)
+            };
+            write_out(None, text.as_bytes())
+        }
+        Command::Decode { input, settings, out } => {
+            let loaded = Loaded::load(&input, &settings)?;
+            let bytes = report::decode_csv(&loaded, |r, th| decode_row(&loaded.taxonomy, &loaded.batch, &loaded.settings, th, r)).map_err(Failure::Other)?;
+            write_out(out.as_ref(), &bytes)
+        }
+        Command::Curve { input, settings, out } => {
+            let loaded = Loaded::load(&input, &settings)?;
+            let s = &loaded.settings;
+            let points = exact_curve(&loaded.taxonomy, &loaded.batch, s.rule, s.thresholds.object, s.policy);
+            let bytes = report::curve_csv(&points).map_err(Failure::Other)?;
+            write_out(out.as_ref(), &bytes)
+        }
+        Command::Profile { input, settings, out } => {
+            let loaded = Loaded::load(&input, &settings)?;
+            let metrics = evaluate(&loaded.taxonomy, &loaded.batch, &loaded.settings);
+            let profile = Profile::new(&loaded.taxonomy, &loaded.settings, loaded.batch.temperatures(), Some((&loaded.batch, &metrics)));
+            write_out(out.as_ref(), (profile.to_json() + "\n").as_bytes())
+        }
+    }
+}
+
+fn write_out(path: Option<&PathBuf>, bytes: &[u8]) -> Result<(), Failure> {
+    let result = match path {
+        Some(p) => std::fs::write(p, bytes).map_err(|e| anyhow::anyhow!("cannot write {}: {e}", p.display())),
+        None => std::io::stdout().lock().write_all(bytes).map_err(|e| anyhow::anyhow!("cannot write to standard output: {e}")),
+    };
+    result.map_err(Failure::Other)
+}

@@ -1,0 +1,233 @@
+//! A batch ready to evaluate: greedy paths plus labels and optional objectness, with the
+//! per-row facts every evaluation needs precomputed once (label depth, agreement depth).
+
+use crate::error::{Collector, Error, ErrorKind, Errors, Location, Result};
+use crate::npy;
+use crate::paths::{Ingested, Paths};
+use crate::settings::Temperatures;
+use crate::taxonomy::{Taxonomy, NONE};
+
+/// One label per row: a node index, or [`NONE`] for a background row.
+#[derive(Debug, Clone, Default)]
+pub struct Labels {
+    pub file: String,
+    pub nodes: Vec<u32>,
+}
+
+impl Labels {
+    /// Parse a labels file: `.npy` of integers (column index, −1 = background) if it starts
+    /// with the npy magic, else CSV with a `label` column holding node ids (empty = background).
+    pub fn parse(bytes: &[u8], file: &str, tax: &Taxonomy) -> Result<Self> {
+        if bytes.starts_with(b"\x93NUMPY") {
+            Self::from_npy(bytes, file, tax)
+        } else {
+            Self::from_csv(bytes, file, tax)
+        }
+    }
+
+    pub fn from_csv(bytes: &[u8], file: &str, tax: &Taxonomy) -> Result<Self> {
+        let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+        let mut reader = csv::ReaderBuilder::new().has_headers(true).from_reader(bytes);
+        let headers = reader.headers().map_err(|e| Error::new(file, Location::line(1), ErrorKind::Csv(e.to_string())))?.clone();
+        let Some(col) = headers.iter().position(|h| h.trim().eq_ignore_ascii_case("label")) else {
+            let found = headers.iter().map(|h| format!("`{h}`")).collect::<Vec<_>>().join(", ");
+            return Err(Error::new(file, Location::line(1), ErrorKind::MissingColumn { expected: "label", found }).into());
+        };
+        let mut errors = Collector::default();
+        let mut nodes = Vec::new();
+        for record in reader.records() {
+            match record {
+                Ok(rec) => {
+                    let line = rec.position().map(|p| p.line()).unwrap_or(0);
+                    let value = rec.get(col).unwrap_or("");
+                    if value.is_empty() {
+                        nodes.push(NONE);
+                    } else if let Some(v) = tax.lookup(value) {
+                        nodes.push(v);
+                    } else {
+                        errors.push(Error::new(file, Location::line(line).column("label"), ErrorKind::UnknownLabel { found: value.to_string() }));
+                        nodes.push(NONE);
+                    }
+                }
+                Err(e) => {
+                    let line = e.position().map(|p| p.line()).unwrap_or(0);
+                    errors.push(Error::new(file, Location::line(line), ErrorKind::Csv(e.to_string())));
+                }
+            }
+        }
+        errors.finish(file)?;
+        Ok(Labels { file: file.to_string(), nodes })
+    }
+
+    pub fn from_npy(bytes: &[u8], file: &str, tax: &Taxonomy) -> Result<Self> {
+        let array = npy::read_array(bytes).map_err(|k| Error::new(file, Location::default(), k))?;
+        let h = &array.header;
+        if !h.dtype.scalar.is_integer() {
+            return Err(Error::new(file, Location::default(), ErrorKind::Dtype { found: h.dtype.name().into(), expected: "an integer dtype (column index, -1 for background)" }).into());
+        }
+        check_column_shape(file, &h.shape)?;
+        let m = tax.len() as i128;
+        let mut errors = Collector::default();
+        let nodes = h
+            .dtype
+            .decode_ints(array.data)
+            .into_iter()
+            .enumerate()
+            .map(|(r, v)| match v {
+                -1 => NONE,
+                v if (0..m).contains(&v) => v as u32,
+                v => {
+                    errors.push(Error::new(file, Location::row(r as u64), ErrorKind::LabelIndex { found: v, nodes: m as u64 }));
+                    NONE
+                }
+            })
+            .collect();
+        errors.finish(file)?;
+        Ok(Labels { file: file.to_string(), nodes })
+    }
+}
+
+/// Accept `(N,)` or `(N, 1)`.
+fn check_column_shape(file: &str, shape: &[u64]) -> Result<()> {
+    match shape {
+        [_] | [_, 1] => Ok(()),
+        _ => Err(Error::new(file, Location::default(), ErrorKind::Shape { found: npy::shape_text(shape), expected: "(rows,) with one value per row".into() }).into()),
+    }
+}
+
+/// P(root) per row, read from a float `.npy` of shape (N,) and stored as f32.
+#[derive(Debug, Clone, Default)]
+pub struct Objectness {
+    pub file: String,
+    pub values: Vec<f32>,
+}
+
+impl Objectness {
+    pub fn parse(bytes: &[u8], file: &str) -> Result<Self> {
+        let array = npy::read_array(bytes).map_err(|k| Error::new(file, Location::default(), k))?;
+        let h = &array.header;
+        if !h.dtype.scalar.is_float() {
+            return Err(Error::new(file, Location::default(), ErrorKind::Dtype { found: h.dtype.name().into(), expected: "float16, float32 or float64 probabilities" }).into());
+        }
+        check_column_shape(file, &h.shape)?;
+        let mut raw = Vec::new();
+        h.dtype.decode_into(array.data, &mut raw);
+        let mut errors = Collector::default();
+        let values = raw
+            .iter()
+            .enumerate()
+            .map(|(r, &v)| {
+                let v32 = v as f32;
+                if !(0.0..=1.0).contains(&v32) {
+                    errors.push(Error::new(file, Location::row(r as u64), ErrorKind::NotProbability { found: v.to_string() }));
+                }
+                v32
+            })
+            .collect();
+        errors.finish(file)?;
+        Ok(Objectness { file: file.to_string(), values })
+    }
+}
+
+/// Everything one evaluation reads. Built once per (files, temperatures); thresholds and rules
+/// change nothing here.
+#[derive(Debug, Clone)]
+pub struct Batch {
+    paths: Paths,
+    labels: Vec<u32>,
+    objectness: Option<Vec<f32>>,
+    /// Depth of the lowest common ancestor of the row's path leaf and its label (0 for
+    /// background rows).
+    agree: Vec<u8>,
+    label_depth: Vec<u8>,
+    temperatures: Temperatures,
+    fingerprint: String,
+}
+
+impl Batch {
+    /// Join paths, labels and objectness, checking they describe the same rows.
+    pub fn new(tax: &Taxonomy, logits_file: &str, ingested: Ingested, temperatures: Temperatures, labels: Labels, objectness: Option<Objectness>) -> Result<Self> {
+        let n = ingested.paths.len() as u64;
+        let mut errors = Vec::new();
+        if labels.nodes.len() as u64 != n {
+            errors.push(Error::new(&labels.file, Location::default(), ErrorKind::RowCount { found: labels.nodes.len() as u64, other: logits_file.to_string(), expected: n }));
+        }
+        if let Some(o) = &objectness {
+            if o.values.len() as u64 != n {
+                errors.push(Error::new(&o.file, Location::default(), ErrorKind::RowCount { found: o.values.len() as u64, other: logits_file.to_string(), expected: n }));
+            }
+        }
+        if !errors.is_empty() {
+            return Err(Errors(errors));
+        }
+        let mut h = blake3::Hasher::new();
+        h.update(b"hedgerow data v1\0");
+        h.update(ingested.digest.as_bytes());
+        for &l in &labels.nodes {
+            h.update(&l.to_le_bytes());
+        }
+        if let Some(o) = &objectness {
+            h.update(b"objectness");
+            for v in &o.values {
+                h.update(&v.to_le_bytes());
+            }
+        }
+        let fingerprint = h.finalize().to_hex().to_string();
+        Ok(Self::from_parts(tax, ingested.paths, labels.nodes, objectness.map(|o| o.values), temperatures, fingerprint))
+    }
+
+    /// Assemble from already validated parts (lengths must agree).
+    pub fn from_parts(tax: &Taxonomy, paths: Paths, labels: Vec<u32>, objectness: Option<Vec<f32>>, temperatures: Temperatures, fingerprint: String) -> Self {
+        let (agree, label_depth) = labels
+            .iter()
+            .zip(paths.leaves())
+            .map(|(&g, &leaf)| if g == NONE { (0, 0) } else { (tax.lca_depth(leaf, g) as u8, tax.depth(g) as u8) })
+            .unzip();
+        Batch { paths, labels, objectness, agree, label_depth, temperatures, fingerprint }
+    }
+
+    pub fn len(&self) -> usize {
+        self.paths.len()
+    }
+    pub fn is_empty(&self) -> bool {
+        self.paths.is_empty()
+    }
+    pub fn paths(&self) -> &Paths {
+        &self.paths
+    }
+    pub fn label(&self, r: usize) -> u32 {
+        self.labels[r]
+    }
+    pub fn labels(&self) -> &[u32] {
+        &self.labels
+    }
+    pub fn has_objectness(&self) -> bool {
+        self.objectness.is_some()
+    }
+    /// P(root) of row `r`: its objectness, or 1.
+    pub fn root_probability(&self, r: usize) -> f64 {
+        self.objectness.as_ref().map_or(1.0, |o| o[r] as f64)
+    }
+    pub(crate) fn agree(&self, r: usize) -> usize {
+        self.agree[r] as usize
+    }
+    pub(crate) fn label_depth(&self, r: usize) -> usize {
+        self.label_depth[r] as usize
+    }
+    pub fn temperatures(&self) -> &Temperatures {
+        &self.temperatures
+    }
+    /// blake3 over the logits file, labels and objectness.
+    pub fn fingerprint(&self) -> &str {
+        &self.fingerprint
+    }
+    /// Share of labelled rows whose label is an internal node.
+    pub fn coarse_share(&self, tax: &Taxonomy) -> Option<f64> {
+        let labelled = self.labels.iter().filter(|&&g| g != NONE).count();
+        let coarse = self.labels.iter().filter(|&&g| g != NONE && !tax.is_leaf(g)).count();
+        (labelled > 0).then(|| coarse as f64 / labelled as f64)
+    }
+    pub fn background_rows(&self) -> usize {
+        self.labels.iter().filter(|&&g| g == NONE).count()
+    }
+}

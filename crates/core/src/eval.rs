@@ -1,0 +1,283 @@
+//! Decoding under thresholds and every metric, from one pass over the precomputed paths.
+//! Nothing here touches logits: a threshold change costs O(rows × depth reached).
+
+use serde::{Deserialize, Serialize};
+
+use crate::batch::Batch;
+use crate::settings::{Policy, Rule, Settings};
+use crate::taxonomy::{Taxonomy, NONE};
+
+/// What happened to one row.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Outcome {
+    /// The prediction is the label or one of its ancestors.
+    Correct,
+    /// The prediction is strictly below a coarse label: cannot be checked.
+    Unverifiable,
+    /// Anything else, including a prediction on a background row.
+    Wrong,
+    /// A labelled row that did not predict (P(root) under the object threshold).
+    Abstained,
+    /// A background row that did not predict: a correct rejection.
+    Rejected,
+}
+
+impl Outcome {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Outcome::Correct => "correct",
+            Outcome::Unverifiable => "unverifiable",
+            Outcome::Wrong => "wrong",
+            Outcome::Abstained => "abstained",
+            Outcome::Rejected => "rejected",
+        }
+    }
+}
+
+/// Shares of all predictions that stop at one depth, split by outcome.
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+pub struct OutcomeShare {
+    pub correct: f64,
+    pub unverifiable: f64,
+    pub wrong: f64,
+}
+
+/// Counts of predictions that stop at one depth, split by outcome.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+pub struct OutcomeCount {
+    pub correct: u64,
+    pub unverifiable: u64,
+    pub wrong: u64,
+}
+
+/// Every metric of one evaluation. Ratios with an empty denominator are `None` (`null`).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Metrics {
+    pub rows: u64,
+    pub predictions: u64,
+    pub abstained: u64,
+    pub correct: u64,
+    pub unverifiable: u64,
+    pub wrong: u64,
+    pub labelled_rows: u64,
+    pub background_rows: u64,
+    /// Background rows that predicted (counted in `wrong`).
+    pub false_alarms: u64,
+    pub precision: Option<f64>,
+    pub specificity: Option<f64>,
+    pub reward: Option<f64>,
+    /// Index d = 0..=D: share of predictions stopping at depth d.
+    pub stop_share: Vec<Option<f64>>,
+    /// Index d: shares of predictions stopping at depth d with each outcome.
+    pub stop_outcome: Vec<OutcomeShare>,
+    /// Index d: counts behind `stop_outcome`.
+    pub stop_count: Vec<OutcomeCount>,
+    pub hierarchical_precision: Option<f64>,
+    pub hierarchical_recall: Option<f64>,
+    pub hierarchical_f1: Option<f64>,
+    pub mistake_severity: Option<f64>,
+    pub rule: Rule,
+    pub unverifiable_policy: Policy,
+}
+
+fn ratio(num: f64, den: f64) -> Option<f64> {
+    (den > 0.0).then(|| num / den)
+}
+
+/// Precision under a policy from outcome counts.
+pub fn precision(policy: Policy, correct: u64, unverifiable: u64, wrong: u64) -> Option<f64> {
+    let (c, u, w) = (correct as f64, unverifiable as f64, wrong as f64);
+    match policy {
+        Policy::Credit => ratio(c + u, c + u + w),
+        Policy::Penalize => ratio(c, c + u + w),
+        Policy::Exclude => ratio(c, c + w),
+    }
+}
+
+/// Where one row's descent stops. `thresholds` is [`Thresholds::resolve`]'s table.
+///
+/// [`Thresholds::resolve`]: crate::settings::Thresholds::resolve
+#[inline]
+pub fn stop_depth(tax: &Taxonomy, batch: &Batch, rule: Rule, thresholds: &[f64], r: usize) -> Option<usize> {
+    let p_root = batch.root_probability(r);
+    if batch.has_objectness() && p_root < thresholds[tax.root() as usize] {
+        return None;
+    }
+    let leaf = batch.paths().leaf(r);
+    let cond = batch.paths().cond(r);
+    let depth = tax.depth(leaf);
+    let mut p = p_root;
+    for d in 1..=depth {
+        let c = cond[d - 1] as f64;
+        let q = match rule {
+            Rule::Cumulative => {
+                p *= c;
+                p
+            }
+            Rule::Conditional => c,
+        };
+        if q < thresholds[tax.ancestor(leaf, d) as usize] {
+            return Some(d - 1);
+        }
+    }
+    Some(depth)
+}
+
+/// Outcome of row `r` stopping at depth `s`.
+#[inline]
+pub(crate) fn outcome_at(batch: &Batch, r: usize, s: usize) -> Outcome {
+    if batch.label(r) == NONE {
+        return Outcome::Wrong;
+    }
+    let a = batch.agree(r);
+    if s <= a {
+        Outcome::Correct
+    } else if a == batch.label_depth(r) {
+        Outcome::Unverifiable
+    } else {
+        Outcome::Wrong
+    }
+}
+
+/// Decode every row under `settings` and compute all metrics.
+pub fn evaluate(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Metrics {
+    let thresholds = settings.thresholds.resolve(tax);
+    let levels = tax.max_depth() + 1;
+    let mut stop_count = vec![OutcomeCount::default(); levels];
+    let (mut abstained, mut false_alarms, mut labelled) = (0u64, 0u64, 0u64);
+    let (mut gain_sum, mut reward_sum) = (0.0f64, 0.0f64);
+    let (mut h_inter, mut h_pred, mut h_true) = (0u64, 0u64, 0u64);
+    let (mut severity_sum, mut severity_n) = (0u64, 0u64);
+    for r in 0..batch.len() {
+        let g = batch.label(r);
+        if g != NONE {
+            labelled += 1;
+            h_true += batch.label_depth(r) as u64;
+        }
+        let Some(s) = stop_depth(tax, batch, settings.rule, &thresholds, r) else {
+            abstained += 1;
+            continue;
+        };
+        let pred = tax.ancestor(batch.paths().leaf(r), s);
+        let gain = tax.gain(pred);
+        gain_sum += gain;
+        let outcome = outcome_at(batch, r, s);
+        let slot = &mut stop_count[s];
+        match outcome {
+            Outcome::Correct => {
+                slot.correct += 1;
+                reward_sum += gain;
+            }
+            Outcome::Unverifiable => slot.unverifiable += 1,
+            _ => slot.wrong += 1,
+        }
+        if g == NONE {
+            false_alarms += 1;
+            continue;
+        }
+        let a = batch.agree(r);
+        h_pred += s as u64;
+        h_inter += s.min(a) as u64;
+        if outcome == Outcome::Wrong {
+            severity_sum += (s + batch.label_depth(r) - 2 * s.min(a)) as u64;
+            severity_n += 1;
+        }
+    }
+    let correct: u64 = stop_count.iter().map(|c| c.correct).sum();
+    let unverifiable: u64 = stop_count.iter().map(|c| c.unverifiable).sum();
+    let wrong: u64 = stop_count.iter().map(|c| c.wrong).sum();
+    let predictions = correct + unverifiable + wrong;
+    let n = predictions as f64;
+    let hp = ratio(h_inter as f64, h_pred as f64);
+    let hr = ratio(h_inter as f64, h_true as f64);
+    let hf = match (hp, hr) {
+        (Some(p), Some(r)) if p + r > 0.0 => Some(2.0 * p * r / (p + r)),
+        (Some(_), Some(_)) => Some(0.0),
+        _ => None,
+    };
+    Metrics {
+        rows: batch.len() as u64,
+        predictions,
+        abstained,
+        correct,
+        unverifiable,
+        wrong,
+        labelled_rows: labelled,
+        background_rows: batch.len() as u64 - labelled,
+        false_alarms,
+        precision: precision(settings.policy, correct, unverifiable, wrong),
+        specificity: ratio(gain_sum, n),
+        reward: ratio(reward_sum, n),
+        stop_share: stop_count.iter().map(|c| ratio((c.correct + c.unverifiable + c.wrong) as f64, n)).collect(),
+        stop_outcome: stop_count
+            .iter()
+            .map(|c| {
+                let share = |k: u64| ratio(k as f64, n).unwrap_or(0.0);
+                OutcomeShare { correct: share(c.correct), unverifiable: share(c.unverifiable), wrong: share(c.wrong) }
+            })
+            .collect(),
+        stop_count,
+        hierarchical_precision: hp,
+        hierarchical_recall: hr,
+        hierarchical_f1: hf,
+        mistake_severity: ratio(severity_sum as f64, severity_n as f64),
+        rule: settings.rule,
+        unverifiable_policy: settings.policy,
+    }
+}
+
+/// One node on a decoded path.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Step {
+    pub node: u32,
+    /// p(node | parent).
+    pub conditional: f64,
+    /// P(node) = P(root) · Π conditionals.
+    pub cumulative: f64,
+}
+
+/// The full decode of one row, for `hedgerow decode`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RowDecode {
+    /// The node where descent stopped (the root index for "an object, type unknown"), or
+    /// `None` when the row abstained.
+    pub predicted: Option<u32>,
+    pub depth: usize,
+    /// The quantity the rule compared for the predicted node (P(root) at the root).
+    pub probability: f64,
+    pub outcome: Outcome,
+    /// The whole greedy path to its leaf, depth 1 first.
+    pub path: Vec<Step>,
+}
+
+pub fn decode_row(tax: &Taxonomy, batch: &Batch, settings: &Settings, thresholds: &[f64], r: usize) -> RowDecode {
+    let leaf = batch.paths().leaf(r);
+    let cond = batch.paths().cond(r);
+    let p_root = batch.root_probability(r);
+    let mut p = p_root;
+    let path: Vec<Step> = (1..=tax.depth(leaf))
+        .map(|d| {
+            let c = cond[d - 1] as f64;
+            p *= c;
+            Step { node: tax.ancestor(leaf, d), conditional: c, cumulative: p }
+        })
+        .collect();
+    match stop_depth(tax, batch, settings.rule, thresholds, r) {
+        None => RowDecode {
+            predicted: None,
+            depth: 0,
+            probability: p_root,
+            outcome: if batch.label(r) == NONE { Outcome::Rejected } else { Outcome::Abstained },
+            path,
+        },
+        Some(s) => {
+            let probability = match (s, settings.rule) {
+                (0, _) => p_root,
+                (_, Rule::Cumulative) => path[s - 1].cumulative,
+                (_, Rule::Conditional) => path[s - 1].conditional,
+            };
+            RowDecode { predicted: Some(tax.ancestor(leaf, s)), depth: s, probability, outcome: outcome_at(batch, r, s), path }
+        }
+    }
+}

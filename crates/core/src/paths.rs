@@ -1,0 +1,329 @@
+//! Streaming ingestion of logits: each row is turned into its greedy path as soon as it is
+//! read, so the N×M matrix is never held. What is kept per row is the path's leaf and the
+//! conditional probability at each depth (struct of arrays).
+
+use crate::error::{Collector, Error, ErrorKind, Errors, Location, Result};
+use crate::npy::{self, Header};
+use crate::settings::Temperatures;
+use crate::taxonomy::Taxonomy;
+
+/// The greedy paths of a batch: row `r` descends root → `ancestor(leaf[r], 1)` → … → `leaf[r]`,
+/// and `cond[r * width + d - 1]` is p(node at depth d | its parent), rounded to f32.
+#[derive(Debug, Clone, Default)]
+pub struct Paths {
+    width: usize,
+    leaf: Vec<u32>,
+    cond: Vec<f32>,
+}
+
+impl Paths {
+    pub fn new(width: usize) -> Self {
+        Paths { width, leaf: Vec::new(), cond: Vec::new() }
+    }
+    pub fn len(&self) -> usize {
+        self.leaf.len()
+    }
+    pub fn is_empty(&self) -> bool {
+        self.leaf.is_empty()
+    }
+    /// Depth D of the taxonomy the paths were built for.
+    pub fn width(&self) -> usize {
+        self.width
+    }
+    pub fn leaf(&self, r: usize) -> u32 {
+        self.leaf[r]
+    }
+    /// Conditional probabilities along row `r`'s path, depth 1 first (padded to `width` with 0).
+    pub fn cond(&self, r: usize) -> &[f32] {
+        &self.cond[r * self.width..(r + 1) * self.width]
+    }
+    pub fn leaves(&self) -> &[u32] {
+        &self.leaf
+    }
+    /// Bytes held per row.
+    pub fn bytes_per_row(&self) -> usize {
+        4 + 4 * self.width
+    }
+    /// Append one row's path (tests and generators build paths directly).
+    pub fn push(&mut self, leaf: u32, cond: &[f32]) {
+        self.leaf.push(leaf);
+        let start = self.cond.len();
+        self.cond.resize(start + self.width, 0.0);
+        let n = cond.len().min(self.width);
+        self.cond[start..start + n].copy_from_slice(&cond[..n]);
+    }
+}
+
+/// Softmax over each sibling group along the greedy descent of one row of logits.
+/// Writes the conditionals into `cond` (depth 1 first) and returns the leaf.
+///
+/// Conditionals are computed in f64 as exp(z − max z) / Σ exp(z − max z) with z = logit / T_d,
+/// the child with the highest probability is taken (ties: the lowest column), and the value is
+/// stored as f32.
+pub fn descend(tax: &Taxonomy, temps: &[f64], logits: &[f64], cond: &mut [f32], scratch: &mut Vec<f64>) -> u32 {
+    let mut v = tax.root();
+    let mut d = 0;
+    loop {
+        let children = tax.children(v);
+        if children.is_empty() {
+            return v;
+        }
+        d += 1;
+        let (best, p) = if let [only] = children {
+            (*only, 1.0)
+        } else {
+            let t = temps.get(d - 1).copied().unwrap_or(1.0);
+            scratch.clear();
+            scratch.extend(children.iter().map(|&c| logits[c as usize] / t));
+            let max = scratch.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+            let mut sum = 0.0;
+            for z in scratch.iter_mut() {
+                *z = (*z - max).exp();
+                sum += *z;
+            }
+            let mut best = 0;
+            let mut best_p = f64::NEG_INFINITY;
+            for (i, e) in scratch.iter().enumerate() {
+                let p = e / sum;
+                if p > best_p {
+                    best_p = p;
+                    best = i;
+                }
+            }
+            (children[best], best_p)
+        };
+        if let Some(slot) = cond.get_mut(d - 1) {
+            *slot = p as f32;
+        }
+        v = best;
+    }
+}
+
+/// The result of reading a logits file.
+#[derive(Debug, Clone)]
+pub struct Ingested {
+    pub paths: Paths,
+    /// blake3 of the file's bytes.
+    pub digest: String,
+    pub header: Header,
+}
+
+/// Push-based `.npy` logits reader: feed it the file in chunks of any size (a native reader,
+/// or `Blob.slice` in the page), then `finish`.
+pub struct LogitsReader {
+    file: String,
+    temps: Vec<f64>,
+    head: Vec<u8>,
+    header: Option<Header>,
+    carry: Vec<u8>,
+    row_bytes: usize,
+    rows_done: u64,
+    data_seen: u64,
+    values: Vec<f64>,
+    scratch: Vec<f64>,
+    paths: Paths,
+    hasher: blake3::Hasher,
+    errors: Collector,
+    /// Fortran-order arrays cannot be streamed by row: their data is kept until `finish`.
+    fortran: Option<Vec<u8>>,
+}
+
+impl LogitsReader {
+    pub fn new(file: &str, tax: &Taxonomy, temps: &Temperatures) -> Self {
+        LogitsReader {
+            file: file.to_string(),
+            temps: temps.expand(tax.max_depth()),
+            head: Vec::new(),
+            header: None,
+            carry: Vec::new(),
+            row_bytes: 0,
+            rows_done: 0,
+            data_seen: 0,
+            values: Vec::new(),
+            scratch: Vec::new(),
+            paths: Paths::new(tax.max_depth()),
+            hasher: blake3::Hasher::new(),
+            errors: Collector::default(),
+            fortran: None,
+        }
+    }
+
+    /// The header, once enough bytes have been fed.
+    pub fn header(&self) -> Option<&Header> {
+        self.header.as_ref()
+    }
+
+    /// Rows decoded so far.
+    pub fn rows_done(&self) -> u64 {
+        self.rows_done
+    }
+
+    fn fail(&self, at: Location, kind: ErrorKind) -> Errors {
+        Error::new(&self.file, at, kind).into()
+    }
+
+    /// Feed the next bytes of the file. A fatal problem (bad header, wrong shape or dtype) is
+    /// returned at once; per-value problems (NaN, ±inf) are collected and returned by `finish`.
+    pub fn feed(&mut self, tax: &Taxonomy, chunk: &[u8]) -> Result<()> {
+        self.hasher.update(chunk);
+        let mut data = chunk;
+        if self.header.is_none() {
+            self.head.extend_from_slice(chunk);
+            let Some(header) = npy::parse_header(&self.head).map_err(|k| self.fail(Location::byte(0), k))? else {
+                return Ok(());
+            };
+            self.check_header(tax, &header)?;
+            let rest = self.head.split_off(header.data_offset);
+            self.head = Vec::new();
+            self.row_bytes = header.shape[1] as usize * header.dtype.scalar.size();
+            if header.fortran_order {
+                let mut buf = Vec::new();
+                buf.try_reserve_exact(header.data_len() as usize).map_err(|_| {
+                    self.fail(
+                        Location::default(),
+                        ErrorKind::Invalid {
+                            what: "Fortran-order array".into(),
+                            expected: "an array that fits in memory (Fortran order is read whole; save with np.ascontiguousarray to stream it)".into(),
+                            found: format!("{} bytes", header.data_len()),
+                        },
+                    )
+                })?;
+                self.fortran = Some(buf);
+            }
+            self.header = Some(header);
+            self.carry = rest;
+            let carried = std::mem::take(&mut self.carry);
+            self.take_data(tax, &carried);
+            return Ok(());
+        }
+        self.take_data(tax, data);
+        data = &[];
+        let _ = data;
+        Ok(())
+    }
+
+    fn check_header(&self, tax: &Taxonomy, h: &Header) -> Result<()> {
+        if !h.dtype.scalar.is_float() {
+            return Err(self.fail(Location::default(), ErrorKind::Dtype { found: h.dtype.name().into(), expected: "float16, float32 or float64 logits" }));
+        }
+        if h.shape.len() != 2 {
+            return Err(self.fail(
+                Location::default(),
+                ErrorKind::Shape { found: h.shape_text(), expected: format!("(rows, {}) with one column per taxonomy node", tax.len()) },
+            ));
+        }
+        if h.shape[1] != tax.len() as u64 {
+            return Err(self.fail(Location::default(), ErrorKind::ColumnCount { found: h.shape[1], expected: tax.len() as u64 }));
+        }
+        Ok(())
+    }
+
+    fn take_data(&mut self, tax: &Taxonomy, mut data: &[u8]) {
+        let Some(header) = self.header.as_ref() else { return };
+        let expected = header.data_len();
+        self.data_seen += data.len() as u64;
+        if let Some(buf) = self.fortran.as_mut() {
+            let room = (expected as usize).saturating_sub(buf.len());
+            buf.extend_from_slice(&data[..data.len().min(room)]);
+            return;
+        }
+        let rows_total = header.shape[0];
+        let dtype = header.dtype;
+        let rb = self.row_bytes;
+        if rb == 0 {
+            return;
+        }
+        if !self.carry.is_empty() {
+            let need = rb - self.carry.len();
+            let take = need.min(data.len());
+            self.carry.extend_from_slice(&data[..take]);
+            data = &data[take..];
+            if self.carry.len() < rb {
+                return;
+            }
+            let row = std::mem::take(&mut self.carry);
+            if self.rows_done < rows_total {
+                dtype.decode_into(&row, &mut self.values);
+                self.push_row(tax);
+            }
+        }
+        let mut rows = data.chunks_exact(rb);
+        for row in &mut rows {
+            if self.rows_done >= rows_total {
+                break;
+            }
+            dtype.decode_into(row, &mut self.values);
+            self.push_row(tax);
+        }
+        if self.rows_done < rows_total {
+            self.carry.extend_from_slice(rows.remainder());
+        }
+    }
+
+    fn push_row(&mut self, tax: &Taxonomy) {
+        let r = self.rows_done;
+        self.rows_done += 1;
+        if self.values.iter().any(|v| !v.is_finite()) {
+            for (c, v) in self.values.iter().enumerate() {
+                if !v.is_finite() {
+                    let at = Location::row(r).column(format!("{c} (`{}`)", tax.id(c as u32)));
+                    self.errors.push(Error::new(&self.file, at, ErrorKind::NonFinite { found: v.to_string() }));
+                }
+            }
+            self.paths.leaf.push(tax.root());
+            self.paths.cond.resize(self.paths.cond.len() + self.paths.width, 0.0);
+            return;
+        }
+        let start = self.paths.cond.len();
+        self.paths.cond.resize(start + self.paths.width, 0.0);
+        let leaf = descend(tax, &self.temps, &self.values, &mut self.paths.cond[start..], &mut self.scratch);
+        self.paths.leaf.push(leaf);
+    }
+
+    /// Check that the data was complete and return the paths.
+    pub fn finish(mut self, tax: &Taxonomy) -> Result<Ingested> {
+        let Some(header) = self.header.clone() else {
+            let kind = if self.head.is_empty() {
+                ErrorKind::NpyMagic { found: "an empty file".into() }
+            } else {
+                ErrorKind::NpyHeader(format!("the file ends inside the header ({} bytes)", self.head.len()))
+            };
+            return Err(self.fail(Location::default(), kind));
+        };
+        let expected = header.data_len();
+        if self.data_seen < expected {
+            let rows = self.rows_done;
+            return Err(self.fail(
+                Location::row(rows),
+                ErrorKind::Truncated { expected, found: self.data_seen },
+            ));
+        }
+        if self.data_seen > expected {
+            return Err(self.fail(Location::byte(header.data_offset as u64 + expected), ErrorKind::TrailingBytes { found: self.data_seen - expected }));
+        }
+        if let Some(buf) = self.fortran.take() {
+            // Column-major: element (r, c) sits at (c * rows + r) * size.
+            let (rows, cols) = (header.shape[0] as usize, header.shape[1] as usize);
+            let size = header.dtype.scalar.size();
+            let mut row = vec![0u8; cols * size];
+            for r in 0..rows {
+                for c in 0..cols {
+                    let at = (c * rows + r) * size;
+                    row[c * size..(c + 1) * size].copy_from_slice(&buf[at..at + size]);
+                }
+                header.dtype.decode_into(&row, &mut self.values);
+                self.push_row(tax);
+            }
+        }
+        let file = self.file.clone();
+        self.errors.finish(&file)?;
+        Ok(Ingested { paths: self.paths, digest: self.hasher.finalize().to_hex().to_string(), header })
+    }
+}
+
+/// Read a whole logits file held in memory (tests, small files).
+pub fn ingest_bytes(file: &str, tax: &Taxonomy, temps: &Temperatures, bytes: &[u8]) -> Result<Ingested> {
+    let mut reader = LogitsReader::new(file, tax, temps);
+    reader.feed(tax, bytes)?;
+    reader.finish(tax)
+}
