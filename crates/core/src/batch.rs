@@ -27,6 +27,8 @@ impl Labels {
 
     pub fn from_csv(bytes: &[u8], file: &str, tax: &Taxonomy) -> Result<Self> {
         let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+        let single = quote_blank_lines(bytes);
+        let bytes = single.as_deref().unwrap_or(bytes);
         let mut reader = csv::ReaderBuilder::new().has_headers(true).from_reader(bytes);
         let headers = reader.headers().map_err(|e| Error::new(file, Location::line(1), ErrorKind::Csv(e.to_string())))?.clone();
         let Some(col) = headers.iter().position(|h| h.trim().eq_ignore_ascii_case("label")) else {
@@ -85,6 +87,33 @@ impl Labels {
         errors.finish(file)?;
         Ok(Labels { file: file.to_string(), nodes })
     }
+}
+
+/// A one-column CSV writes a background row as an empty line, which CSV readers skip. When the
+/// header has a single column, turn each empty line (outside quotes) into `""`
+/// so every row is kept and line numbers stay as they are.
+fn quote_blank_lines(bytes: &[u8]) -> Option<Vec<u8>> {
+    let header_end = bytes.iter().position(|&b| b == b'\n').unwrap_or(bytes.len());
+    if bytes[..header_end].contains(&b',') {
+        return None;
+    }
+    let mut out = Vec::with_capacity(bytes.len() + 64);
+    let mut in_quotes = false;
+    let mut line_start = true;
+    for (i, &b) in bytes.iter().enumerate() {
+        if line_start && !in_quotes && i > header_end {
+            let blank = b == b'\n' || (b == b'\r' && bytes.get(i + 1) == Some(&b'\n'));
+            if blank {
+                out.extend_from_slice(b"\"\"");
+            }
+        }
+        if b == b'"' {
+            in_quotes = !in_quotes;
+        }
+        line_start = b == b'\n';
+        out.push(b);
+    }
+    Some(out)
 }
 
 /// Accept `(N,)` or `(N, 1)`.

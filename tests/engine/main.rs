@@ -1,0 +1,7 @@
+//! Engine tests: hand-derived worked examples, every decode rule, the exact curve, profiles.
+
+mod curve;
+mod harness;
+mod profile;
+mod rules;
+mod worked;
