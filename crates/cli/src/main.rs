@@ -84,13 +84,13 @@ pub struct SettingArgs {
     #[arg(long)]
     pub rule: Option<String>,
     /// Per-depth thresholds t_1,t_2,… (a shorter list repeats its last value). Default 0.5.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub thresholds: Option<String>,
     /// Object threshold t_0 on P(root) (only with --objectness). Default 0.5.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub object_threshold: Option<String>,
     /// Per-depth softmax temperatures T_1,T_2,… Default 1.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub temperatures: Option<String>,
     /// How precision counts predictions below a coarse label: credit, penalize or exclude. Default credit.
     #[arg(long)]

@@ -221,7 +221,10 @@ fn parse_dict(text: &str) -> Result<(Dtype, bool, Vec<u64>), ErrorKind> {
         match key.as_str() {
             "descr" => {
                 let Some(d) = p.string() else {
-                    return Err(ErrorKind::Dtype { found: "a structured dtype".into(), expected: "a plain numeric dtype" });
+                    if p.s.get(p.i) == Some(&b'[') {
+                        return Err(ErrorKind::Dtype { found: "a structured dtype".into(), expected: "a plain numeric dtype" });
+                    }
+                    return Err(bad("expected a quoted dtype string for 'descr'"));
                 };
                 descr = Some(d);
             }

@@ -1,0 +1,23 @@
+//! The hedgerow page: a yew app rendered on the client, built for
+//! `wasm32-unknown-unknown` by `cargo xtask build-web` into `dist/index.html`.
+//!
+//! The page runs with no server: `dist/index.html` carries the wasm-bindgen
+//! glue and this program (base64) inline, and the boot script in it hands the
+//! wasm bytes to the glue. `main` below is called by the glue as the wasm
+//! start function once the module is instantiated.
+
+mod components;
+mod demo_data;
+
+use components::app::App;
+
+fn main() {
+    // Mount into `<main id="app">` of www/index.html; fall back to <body>.
+    let root = web_sys::window()
+        .and_then(|w| w.document())
+        .and_then(|d| d.get_element_by_id("app"));
+    match root {
+        Some(root) => yew::Renderer::<App>::with_root(root).render(),
+        None => yew::Renderer::<App>::new().render(),
+    };
+}

@@ -1,0 +1,98 @@
+//! The commands agree with each other: JSON keys, profile round trip, decode and curve shapes.
+
+use crate::harness::{hedgerow, logits, objectness, Scratch, LABELS, TAXONOMY};
+
+fn batch(s: &Scratch) {
+    s.write("t.csv", TAXONOMY.as_bytes());
+    s.write("l.npy", &logits(4));
+    s.write("y.csv", LABELS.as_bytes());
+    s.write("o.npy", &objectness(&[0.9, 0.4, 0.2, 0.8]));
+}
+
+const INPUT: [&str; 8] = ["--taxonomy", "t.csv", "--logits", "l.npy", "--labels", "y.csv", "--objectness", "o.npy"];
+
+fn json(run: &crate::harness::Run) -> serde_json::Value {
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    serde_json::from_str(&run.stdout).unwrap_or_else(|e| panic!("not JSON ({e}): {}", run.stdout))
+}
+
+#[test]
+fn evaluate_json_has_the_documented_keys() {
+    let s = Scratch::new("keys");
+    batch(&s);
+    let mut args = vec!["evaluate"];
+    args.extend(INPUT);
+    args.push("--json");
+    let v = json(&hedgerow(&s.dir, &args));
+    for key in [
+        "rows", "predictions", "abstained", "correct", "unverifiable", "wrong", "precision", "specificity", "reward", "stop_share", "hierarchical_precision", "hierarchical_recall",
+        "hierarchical_f1", "mistake_severity",
+    ] {
+        assert!(v.get(key).is_some(), "missing {key}");
+    }
+    assert_eq!(v["rows"], 4);
+    assert_eq!(v["stop_share"].as_array().map(Vec::len), Some(3), "depths 0..=2");
+    // Object threshold 0.5 by default: rows 1 (0.4) and 2 (0.2) abstain.
+    assert_eq!(v["abstained"], 2);
+}
+
+#[test]
+fn no_predictions_gives_null_ratios_and_n_a() {
+    let s = Scratch::new("null");
+    batch(&s);
+    let mut args = vec!["evaluate"];
+    args.extend(INPUT);
+    args.extend(["--object-threshold", "1", "--json"]);
+    let v = json(&hedgerow(&s.dir, &args));
+    assert_eq!(v["predictions"], 0);
+    assert!(v["precision"].is_null() && v["specificity"].is_null() && v["reward"].is_null());
+    args.pop();
+    let run = hedgerow(&s.dir, &args);
+    assert!(run.stdout.contains("precision         n/a"), "{}", run.stdout);
+}
+
+#[test]
+fn saved_profile_reproduces_the_metrics() {
+    let s = Scratch::new("profile");
+    batch(&s);
+    let settings = ["--rule", "conditional", "--thresholds", "0.61,0.3", "--object-threshold", "0.35", "--unverifiable", "exclude", "--temperatures", "1.5"];
+    let mut args = vec!["profile"];
+    args.extend(INPUT);
+    args.extend(settings);
+    args.extend(["--out", "p.json"]);
+    let run = hedgerow(&s.dir, &args);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let mut direct = vec!["evaluate"];
+    direct.extend(INPUT);
+    direct.extend(settings);
+    direct.push("--json");
+    let mut via = vec!["evaluate"];
+    via.extend(INPUT);
+    via.extend(["--profile", "p.json", "--json"]);
+    let (a, b) = (json(&hedgerow(&s.dir, &direct)), json(&hedgerow(&s.dir, &via)));
+    assert_eq!(a, b);
+    let saved: serde_json::Value = serde_json::from_slice(&std::fs::read(s.dir.join("p.json")).expect("profile")).expect("json");
+    assert_eq!(saved["scored"]["metrics"], a);
+    assert_eq!(saved["thresholds"], serde_json::json!([0.61, 0.3]));
+}
+
+#[test]
+fn decode_and_curve_write_csv() {
+    let s = Scratch::new("csv");
+    batch(&s);
+    let mut args = vec!["decode"];
+    args.extend(INPUT);
+    args.extend(["--out", "d.csv"]);
+    assert_eq!(hedgerow(&s.dir, &args).code, 0);
+    let text = std::fs::read_to_string(s.dir.join("d.csv")).expect("decode out");
+    let lines: Vec<&str> = text.lines().collect();
+    assert_eq!(lines[0], "row,label,predicted,depth,probability,outcome,node_1,conditional_1,cumulative_1,node_2,conditional_2,cumulative_2");
+    assert_eq!(lines.len(), 5);
+    assert!(lines[2].contains(",abstained,"), "{}", lines[2]);
+    assert!(lines[3].contains(",rejected,"), "{}", lines[3]);
+    let mut args = vec!["curve"];
+    args.extend(INPUT);
+    let run = hedgerow(&s.dir, &args);
+    assert_eq!(run.code, 0);
+    assert!(run.stdout.starts_with("threshold,predictions,correct,unverifiable,wrong,precision,specificity,reward\n1,"), "{}", run.stdout);
+}

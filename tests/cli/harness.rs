@@ -1,0 +1,82 @@
+//! Runs the `hedgerow` binary on files written into a fresh scratch folder.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+use std::sync::atomic::{AtomicUsize, Ordering};
+
+pub struct Scratch {
+    pub dir: PathBuf,
+}
+
+impl Scratch {
+    pub fn new(name: &str) -> Self {
+        static N: AtomicUsize = AtomicUsize::new(0);
+        let dir = std::env::temp_dir().join(format!("hedgerow-cli-{}-{}-{name}", std::process::id(), N.fetch_add(1, Ordering::Relaxed)));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).expect("scratch dir");
+        Scratch { dir }
+    }
+    pub fn write(&self, name: &str, bytes: &[u8]) -> PathBuf {
+        let p = self.dir.join(name);
+        std::fs::write(&p, bytes).expect("write fixture");
+        p
+    }
+}
+
+impl Drop for Scratch {
+    fn drop(&mut self) {
+        let _ = std::fs::remove_dir_all(&self.dir);
+    }
+}
+
+pub struct Run {
+    pub code: i32,
+    pub stdout: String,
+    pub stderr: String,
+}
+
+pub fn hedgerow(dir: &Path, args: &[&str]) -> Run {
+    let out = Command::new(env!("CARGO_BIN_EXE_hedgerow")).current_dir(dir).args(args).output().expect("run hedgerow");
+    Run { code: out.status.code().unwrap_or(-1), stdout: String::from_utf8_lossy(&out.stdout).into(), stderr: String::from_utf8_lossy(&out.stderr).into() }
+}
+
+/// The workspace's demo data folder.
+pub fn demo() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../demo-data")
+}
+
+/// `.npy` header as numpy writes it (format 1.0, padded to a multiple of 64 bytes).
+pub fn npy_header(descr: &str, shape: &str) -> Vec<u8> {
+    let dict = format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape}, }}");
+    let mut len = dict.len() + 1;
+    while (10 + len) % 64 != 0 {
+        len += 1;
+    }
+    let mut out = b"\x93NUMPY\x01\x00".to_vec();
+    out.extend((len as u16).to_le_bytes());
+    out.extend(dict.as_bytes());
+    out.extend(std::iter::repeat_n(b' ', len - dict.len() - 1));
+    out.push(b'\n');
+    out
+}
+
+pub fn npy_f32(shape: &str, values: &[f32]) -> Vec<u8> {
+    let mut out = npy_header("<f4", shape);
+    for v in values {
+        out.extend(v.to_le_bytes());
+    }
+    out
+}
+
+/// A small valid batch: 3 nodes (x with children y, z), 4 rows.
+pub const TAXONOMY: &str = "id,parent\nx,\ny,x\nz,x\n";
+pub const LABELS: &str = "label\ny\nz\n\nx\n";
+
+pub fn logits(rows: usize) -> Vec<u8> {
+    let values: Vec<f32> = (0..rows * 3).map(|i| ((i * 7) % 5) as f32 - 2.0).collect();
+    npy_f32(&format!("({rows}, 3)"), &values)
+}
+
+pub fn objectness(values: &[f32]) -> Vec<u8> {
+    npy_f32(&format!("({},)", values.len()), values)
+}

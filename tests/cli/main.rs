@@ -1,0 +1,6 @@
+//! Command-line tests: every bad input gets a located message and exit code 2; the happy paths
+//! (evaluate, decode, curve, profile) agree with each other.
+
+mod bad_input;
+mod harness;
+mod happy;
