@@ -2,6 +2,7 @@
 
 mod curve;
 mod harness;
+mod invariants;
 mod profile;
 mod rules;
 mod worked;
