@@ -40,10 +40,6 @@ pub fn hedgerow(dir: &Path, args: &[&str]) -> Run {
     Run { code: out.status.code().unwrap_or(-1), stdout: String::from_utf8_lossy(&out.stdout).into(), stderr: String::from_utf8_lossy(&out.stderr).into() }
 }
 
-/// The workspace's demo data folder.
-pub fn demo() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../demo-data")
-}
 
 /// `.npy` header as numpy writes it (format 1.0, padded to a multiple of 64 bytes).
 pub fn npy_header(descr: &str, shape: &str) -> Vec<u8> {

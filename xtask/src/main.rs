@@ -1,6 +1,9 @@
 //! Project tasks (build, test, generate, serve), run as `cargo xtask <task>`.
 
 mod demo;
+mod e2e;
+mod npy_write;
+mod pyenv;
 mod test;
 mod web;
 
@@ -12,7 +15,8 @@ tasks:
   test        run every test: cargo tests, the Python reference checks (creates .venv), end-to-end
   gen-demo    regenerate demo-data/ from the fixed seed
   build-web   build the page into dist/
-  serve       build the page and serve it on 127.0.0.1";
+  serve       build the page and serve it on 127.0.0.1
+  e2e         build the page and run its end-to-end tests in headless Chromium";
 
 fn main() -> anyhow::Result<()> {
     let mut args = std::env::args().skip(1);
@@ -23,6 +27,7 @@ fn main() -> anyhow::Result<()> {
         "gen-demo" => demo::run(&rest),
         "build-web" => web::build(&rest).map(|_| ()),
         "serve" => web::serve(&rest),
+        "e2e" => e2e::run(&rest),
         _ => {
             eprintln!("{USAGE}");
             std::process::exit(2);

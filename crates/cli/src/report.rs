@@ -44,7 +44,7 @@ pub fn table(loaded: &Loaded, m: &Metrics) -> String {
         let _ = writeln!(out, "{k:<18}{v}");
     }
     for (d, (share, o)) in m.stop_share.iter().zip(&m.stop_outcome).enumerate() {
-        let _ = writeln!(out, "{:<18}{:<9}{:<9.4}{:<10.4}{:.4}", d, show(*share), o.correct, o.unverifiable, o.wrong);
+        let _ = writeln!(out, "{:<18}{:<9}{:<9}{:<10}{}", d, show(*share), show(o.correct), show(o.unverifiable), show(o.wrong));
     }
     out
 }

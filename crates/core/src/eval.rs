@@ -35,12 +35,13 @@ impl Outcome {
     }
 }
 
-/// Shares of all predictions that stop at one depth, split by outcome.
+/// Shares of all predictions that stop at one depth, split by outcome (`None` without
+/// predictions).
 #[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
 pub struct OutcomeShare {
-    pub correct: f64,
-    pub unverifiable: f64,
-    pub wrong: f64,
+    pub correct: Option<f64>,
+    pub unverifiable: Option<f64>,
+    pub wrong: Option<f64>,
 }
 
 /// Counts of predictions that stop at one depth, split by outcome.
@@ -213,7 +214,7 @@ pub fn evaluate(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Metrics {
         stop_outcome: stop_count
             .iter()
             .map(|c| {
-                let share = |k: u64| ratio(k as f64, n).unwrap_or(0.0);
+                let share = |k: u64| ratio(k as f64, n);
                 OutcomeShare { correct: share(c.correct), unverifiable: share(c.unverifiable), wrong: share(c.wrong) }
             })
             .collect(),
