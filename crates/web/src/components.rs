@@ -1,6 +1,14 @@
 //! The page's components, one per file.
 
+pub mod advanced;
 pub mod app;
+pub mod chart;
+pub mod controls;
 pub mod demo_button;
-pub mod threshold_chart;
-pub mod threshold_input;
+pub mod error_area;
+pub mod file_picker;
+pub mod files_panel;
+pub mod headline;
+pub mod metric;
+pub mod read_progress;
+pub mod threshold_control;

@@ -5,9 +5,16 @@
 //! glue and this program (base64) inline, and the boot script in it hands the
 //! wasm bytes to the glue. `main` below is called by the glue as the wasm
 //! start function once the module is instantiated.
+//!
+//! Everything the page computes goes through `hedgerow-board`'s `Board` (and so
+//! `hedgerow-core`, the engine the command line uses); this crate only reads
+//! files, stores settings, and renders what the board holds.
 
+mod browser;
 mod components;
 mod demo_data;
+mod hooks;
+mod store;
 
 use components::app::App;
 

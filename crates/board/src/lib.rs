@@ -1,0 +1,6 @@
+//! hedgerow-board: everything the page shows and does, without a browser. The state, the
+//! actions that change it and a pure `apply` live in `state`; the charts are drawing functions
+//! generic over the plotters backend (`charts`), so native tests render them to SVG.
+
+pub mod charts;
+pub mod state;

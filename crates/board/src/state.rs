@@ -1,0 +1,563 @@
+//! The page's state, the actions that change it and the pure `apply` that does. No browser
+//! types: the page's shell reads files and storage, dispatches actions, and renders what is here.
+//!
+//! Loading is staged: each file the user gives lands in its slot (taxonomy, logits, labels,
+//! objectness, profile) and is checked; whenever the slots form a whole batch it becomes the
+//! *active* batch. A file that fails leaves its error beside its slot and the active batch, its
+//! thresholds and everything tuned so far untouched.
+
+use std::collections::BTreeMap;
+use std::rc::Rc;
+
+use hedgerow_core::{evaluate, exact_curve, npy, Batch, CurvePoint, Errors, Ingested, Labels, Metrics, Objectness, Policy, Profile, Rule, Settings, Taxonomy, Temperatures};
+use serde::{Deserialize, Serialize};
+
+use crate::charts::{StopView, TradePoint, TradeoffView};
+
+/// The kinds of file the page takes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum Slot {
+    Taxonomy,
+    Logits,
+    Labels,
+    Objectness,
+    Profile,
+}
+
+impl Slot {
+    pub const ALL: [Slot; 5] = [Slot::Taxonomy, Slot::Logits, Slot::Labels, Slot::Objectness, Slot::Profile];
+    pub fn title(self) -> &'static str {
+        match self {
+            Slot::Taxonomy => "taxonomy",
+            Slot::Logits => "logits",
+            Slot::Labels => "labels",
+            Slot::Objectness => "objectness",
+            Slot::Profile => "profile",
+        }
+    }
+}
+
+/// Decide what a file is from its name and first bytes (at least the .npy header or the first
+/// line of a text file).
+pub fn recognise(name: &str, head: &[u8]) -> Result<Slot, String> {
+    let lower = name.to_ascii_lowercase();
+    if head.starts_with(b"\x93NUMPY") {
+        let header = match npy::parse_header(head) {
+            Ok(Some(h)) => h,
+            Ok(None) => return Err(format!("{name}: the .npy header is longer than the bytes read; expected a header under 64 KiB")),
+            Err(k) => return Err(format!("{name}: {k}")),
+        };
+        let column = matches!(header.shape[..], [_] | [_, 1]);
+        return match (header.shape.len(), header.dtype.scalar.is_float()) {
+            (2, true) if !column => Ok(Slot::Logits),
+            (_, true) if column => Ok(Slot::Objectness),
+            (_, false) if column => Ok(Slot::Labels),
+            _ => Err(format!(
+                "{name}: a {} array of shape {}: expected logits (rows, nodes) of floats, objectness (rows,) of floats or labels (rows,) of integers",
+                header.dtype.name(),
+                header.shape_text()
+            )),
+        };
+    }
+    if lower.ends_with(".npz") {
+        return Err(format!("{name}: .npz bundles are not read yet; save each array with np.save"));
+    }
+    let text = String::from_utf8_lossy(head);
+    let text = text.trim_start_matches('\u{feff}').trim_start();
+    if text.starts_with('[') {
+        return Ok(Slot::Taxonomy);
+    }
+    if text.starts_with('{') {
+        return Ok(Slot::Profile);
+    }
+    let header: Vec<String> = text.lines().next().unwrap_or("").split(',').map(|h| h.trim().trim_matches('"').to_ascii_lowercase()).collect();
+    let has = |c: &str| header.iter().any(|h| h == c);
+    if has("id") && has("parent") {
+        Ok(Slot::Taxonomy)
+    } else if has("label") {
+        Ok(Slot::Labels)
+    } else {
+        Err(format!(
+            "{name}: not recognised: expected a .npy array, a taxonomy (CSV with id,parent columns or a JSON array), labels (CSV with a label column) or a profile (JSON object); the first line is `{}`",
+            text.lines().next().unwrap_or("").chars().take(80).collect::<String>()
+        ))
+    }
+}
+
+/// Which taxonomy and temperatures a set of paths was computed for.
+#[derive(Debug, Clone, PartialEq)]
+pub struct IngestKey {
+    pub taxonomy: String,
+    pub temperatures: Vec<f64>,
+}
+
+/// A read in progress, for the progress bar.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Progress {
+    pub name: String,
+    pub done: u64,
+    pub total: u64,
+}
+
+/// The batch currently scored: it changes only when a complete, valid set of files is loaded.
+#[derive(Debug, Clone)]
+pub struct Active {
+    pub taxonomy: Rc<Taxonomy>,
+    pub batch: Rc<Batch>,
+    pub names: BTreeMap<Slot, String>,
+}
+
+/// Settings kept across reloads (localStorage).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Stored {
+    pub rule: Rule,
+    pub object_threshold: f64,
+    pub thresholds: Vec<f64>,
+    pub temperatures: Vec<f64>,
+    pub unverifiable: Policy,
+}
+
+/// What changes the state.
+#[derive(Debug, Clone)]
+pub enum Action {
+    /// A whole small file (taxonomy, labels, objectness, profile). Logits stream instead.
+    File { name: String, bytes: Rc<Vec<u8>> },
+    /// The shell could not read or recognise a file.
+    Unreadable { slot: Option<Slot>, message: String },
+    /// A logits file was chosen; the shell streams it when `wanted_ingest` asks.
+    LogitsChosen { name: String, total: u64 },
+    LogitsProgress { done: u64 },
+    LogitsDone { key: IngestKey, result: Result<Ingested, Errors> },
+    LogitsCancelled,
+    SetRule(Rule),
+    SetPolicy(Policy),
+    SetDepth { depth: usize, value: f64 },
+    SetObject(f64),
+    SetAllDepths(f64),
+    SetTemperature { depth: usize, value: f64 },
+    /// The depth whose control the user is on: chart 1 shows its sweep.
+    Focus(usize),
+    Restore(Stored),
+    ClearErrors,
+}
+
+#[derive(Debug, Clone, Default)]
+pub struct Board {
+    pub taxonomy: Option<(String, Rc<Taxonomy>)>,
+    /// Labels are kept as bytes so a new taxonomy can re-read them.
+    pub labels: Option<(String, Rc<Vec<u8>>)>,
+    pub objectness: Option<(String, Rc<Objectness>)>,
+    pub logits: Option<String>,
+    pub ingested: Option<(IngestKey, Rc<Ingested>)>,
+    pub progress: Option<Progress>,
+    pub errors: BTreeMap<Slot, Vec<String>>,
+    /// What was recognised in each slot, in words.
+    pub notes: BTreeMap<Slot, String>,
+    pub settings: Settings,
+    pub temperatures: Temperatures,
+    pub focus: usize,
+    pub active: Option<Active>,
+    pub metrics: Option<Metrics>,
+    pub curve: Rc<Vec<CurvePoint>>,
+    curve_key: Option<(Rule, u64, Policy, usize)>,
+    pub sweep: Rc<Vec<TradePoint>>,
+    sweep_key: Option<SweepKey>,
+    /// Bumped whenever a new batch becomes active (for caches keyed on it).
+    pub generation: usize,
+    /// The key whose read failed, so it is not retried until something changes.
+    logits_failed_for: Option<IngestKey>,
+    pending_total: u64,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+struct SweepKey {
+    depth: usize,
+    generation: usize,
+    rule: Rule,
+    policy: Policy,
+    thresholds: Vec<u64>,
+}
+
+/// Points on the sweep of one depth's threshold from 0 to 1.
+const SWEEP_STEPS: usize = 50;
+
+impl Board {
+    pub fn new() -> Self {
+        Board { settings: Settings::default(), focus: 1, ..Board::default() }
+    }
+
+    /// Depth D of the taxonomy in use (staged, else active), or 0.
+    pub fn depth(&self) -> usize {
+        self.taxonomy.as_ref().map(|(_, t)| t.max_depth()).or(self.active.as_ref().map(|a| a.taxonomy.max_depth())).unwrap_or(0)
+    }
+
+    /// The key logits must be (re)read with, when the staged paths do not match it.
+    pub fn wanted_ingest(&self) -> Option<IngestKey> {
+        let (_, tax) = self.taxonomy.as_ref()?;
+        self.logits.as_ref()?;
+        if self.progress.is_some() {
+            return None;
+        }
+        let key = IngestKey { taxonomy: tax.fingerprint().to_string(), temperatures: self.temperatures.expand(tax.max_depth()) };
+        match &self.ingested {
+            Some((k, _)) if *k == key => None,
+            _ if self.errors.get(&Slot::Logits).is_some_and(|e| !e.is_empty()) && self.logits_failed_for.as_ref() == Some(&key) => None,
+            _ => Some(key),
+        }
+    }
+
+    pub fn stored(&self) -> Stored {
+        Stored {
+            rule: self.settings.rule,
+            object_threshold: self.settings.thresholds.object,
+            thresholds: self.settings.thresholds.depths.clone(),
+            temperatures: self.temperatures.0.clone(),
+            unverifiable: self.settings.policy,
+        }
+    }
+
+    /// The profile to download: current settings, scored on the active batch.
+    pub fn profile(&self) -> Option<Profile> {
+        let a = self.active.as_ref()?;
+        let m = self.metrics.as_ref()?;
+        Some(Profile::new(&a.taxonomy, &self.settings, a.batch.temperatures(), Some((&a.batch, m))))
+    }
+
+    pub fn apply(&mut self, action: Action) {
+        match action {
+            Action::File { name, bytes } => self.file(name, bytes),
+            Action::Unreadable { slot, message } => {
+                self.errors.insert(slot.unwrap_or(Slot::Profile), vec![message]);
+            }
+            Action::LogitsChosen { name, total } => {
+                self.logits = Some(name.clone());
+                self.errors.remove(&Slot::Logits);
+                self.logits_failed_for = None;
+                self.notes.insert(Slot::Logits, format!("{name}: waiting for a taxonomy"));
+                self.ingested = None;
+                self.progress = None;
+                self.pending_total = total;
+            }
+            Action::LogitsProgress { done } => {
+                if let Some(name) = &self.logits {
+                    self.progress = Some(Progress { name: name.clone(), done, total: self.pending_total });
+                }
+            }
+            Action::LogitsCancelled => {
+                self.progress = None;
+                self.logits = self.active.as_ref().and_then(|a| a.names.get(&Slot::Logits).cloned());
+                self.notes.insert(Slot::Logits, "reading cancelled; the batch in use is kept".into());
+                self.ingested = None;
+            }
+            Action::LogitsDone { key, result } => {
+                self.progress = None;
+                match result {
+                    Ok(ingested) => {
+                        let h = &ingested.header;
+                        self.notes.insert(
+                            Slot::Logits,
+                            format!("{}: {} rows × {} nodes, {}", self.logits.clone().unwrap_or_default(), h.shape.first().copied().unwrap_or(0), h.shape.get(1).copied().unwrap_or(0), h.dtype.name()),
+                        );
+                        self.errors.remove(&Slot::Logits);
+                        self.ingested = Some((key, Rc::new(ingested)));
+                        self.assemble();
+                    }
+                    Err(e) => {
+                        self.logits_failed_for = Some(key);
+                        self.errors.insert(Slot::Logits, messages(&e));
+                    }
+                }
+            }
+            Action::SetRule(rule) => {
+                self.settings.rule = rule;
+                self.rescore();
+            }
+            Action::SetPolicy(policy) => {
+                self.settings.policy = policy;
+                self.rescore();
+            }
+            Action::SetDepth { depth, value } => {
+                if depth >= 1 {
+                    self.fit_depths();
+                    if let Some(slot) = self.settings.thresholds.depths.get_mut(depth - 1) {
+                        *slot = clamp01(value);
+                    }
+                    self.focus = depth;
+                    self.rescore();
+                }
+            }
+            Action::SetObject(value) => {
+                self.settings.thresholds.object = clamp01(value);
+                self.rescore();
+            }
+            Action::SetAllDepths(value) => {
+                self.fit_depths();
+                for t in &mut self.settings.thresholds.depths {
+                    *t = clamp01(value);
+                }
+                self.rescore();
+            }
+            Action::SetTemperature { depth, value } => {
+                if depth >= 1 && value.is_finite() && value > 0.0 {
+                    let d = self.depth().max(depth);
+                    let mut temps = self.temperatures.expand(d);
+                    temps[depth - 1] = value;
+                    self.temperatures = Temperatures(temps);
+                }
+            }
+            Action::Focus(depth) => {
+                self.focus = depth;
+                self.rescore();
+            }
+            Action::Restore(stored) => {
+                self.settings.rule = stored.rule;
+                self.settings.policy = stored.unverifiable;
+                self.settings.thresholds.object = clamp01(stored.object_threshold);
+                if !stored.thresholds.is_empty() {
+                    self.settings.thresholds.depths = stored.thresholds.iter().map(|&t| clamp01(t)).collect();
+                }
+                if stored.temperatures.iter().all(|t| t.is_finite() && *t > 0.0) {
+                    self.temperatures = Temperatures(stored.temperatures);
+                }
+                self.fit_depths();
+                self.rescore();
+            }
+            Action::ClearErrors => self.errors.clear(),
+        }
+    }
+
+    fn file(&mut self, name: String, bytes: Rc<Vec<u8>>) {
+        let slot = match recognise(&name, &bytes[..bytes.len().min(1 << 16)]) {
+            Ok(s) => s,
+            Err(message) => {
+                self.errors.insert(Slot::Profile, vec![message]);
+                return;
+            }
+        };
+        self.errors.remove(&slot);
+        match slot {
+            Slot::Taxonomy => match Taxonomy::parse(&bytes, &name) {
+                Ok(tax) => {
+                    let leaves = tax.total_leaves();
+                    self.notes.insert(slot, format!("{name}: {} nodes, {leaves} leaves, depth {}", tax.len(), tax.max_depth()));
+                    self.taxonomy = Some((name, Rc::new(tax)));
+                    self.fit_depths();
+                    self.assemble();
+                }
+                Err(e) => {
+                    self.errors.insert(slot, messages(&e));
+                }
+            },
+            Slot::Labels => {
+                self.labels = Some((name.clone(), bytes));
+                self.notes.insert(slot, format!("{name}: read"));
+                self.assemble();
+            }
+            Slot::Objectness => match Objectness::parse(&bytes, &name) {
+                Ok(o) => {
+                    self.notes.insert(slot, format!("{name}: {} rows", o.values.len()));
+                    self.objectness = Some((name, Rc::new(o)));
+                    self.assemble();
+                }
+                Err(e) => {
+                    self.errors.insert(slot, messages(&e));
+                }
+            },
+            Slot::Profile => self.load_profile(&name, &bytes),
+            Slot::Logits => {
+                // Logits are streamed by the shell; a whole file handed over is read here.
+                self.errors.insert(slot, vec![format!("{name}: logits must be streamed (internal: use LogitsChosen)")]);
+            }
+        }
+    }
+
+    fn load_profile(&mut self, name: &str, bytes: &[u8]) {
+        let Some((_, tax)) = self.taxonomy.clone().or(self.active.as_ref().map(|a| (String::new(), a.taxonomy.clone()))) else {
+            self.errors.insert(Slot::Profile, vec![format!("{name}: load a taxonomy first: a profile is checked against the taxonomy it was made for")]);
+            return;
+        };
+        match Profile::from_json(bytes, name, &tax) {
+            Ok(p) => match p.settings(&tax) {
+                Ok(s) => {
+                    self.settings = s;
+                    self.temperatures = p.temperatures();
+                    self.fit_depths();
+                    self.notes.insert(Slot::Profile, format!("{name}: {} rule, thresholds {}", p.rule.as_str(), join(&p.thresholds)));
+                    self.rescore();
+                }
+                Err(k) => {
+                    self.errors.insert(Slot::Profile, vec![format!("{name}: {k}")]);
+                }
+            },
+            Err(e) => {
+                self.errors.insert(Slot::Profile, messages(&e));
+            }
+        }
+    }
+
+    /// Make the per-depth list exactly D long (repeating the last value), so every depth has
+    /// its own control.
+    fn fit_depths(&mut self) {
+        let d = self.depth();
+        if d == 0 {
+            return;
+        }
+        let t = &self.settings.thresholds;
+        let depths: Vec<f64> = (1..=d).map(|i| t.at_depth(i)).collect();
+        self.settings.thresholds.depths = depths;
+        // Overrides by column index belong to the taxonomy they were set for.
+        let m = self.taxonomy.as_ref().map_or(0, |(_, t)| t.len() as u32);
+        self.settings.thresholds.nodes.retain(|&(v, _)| v < m);
+        if self.focus == 0 || self.focus > d {
+            self.focus = 1;
+        }
+    }
+
+    /// Try to build a batch from the staged files; on success it becomes active.
+    fn assemble(&mut self) {
+        let Some((tax_name, tax)) = self.taxonomy.clone() else { return };
+        let labels = match &self.labels {
+            Some((name, bytes)) => match Labels::parse(bytes, name, &tax) {
+                Ok(l) => {
+                    self.errors.remove(&Slot::Labels);
+                    Some(l)
+                }
+                Err(e) => {
+                    self.errors.insert(Slot::Labels, messages(&e));
+                    return;
+                }
+            },
+            None => None,
+        };
+        let (Some(labels), Some((key, ingested))) = (labels, self.ingested.clone()) else { return };
+        if key.taxonomy != tax.fingerprint() {
+            return;
+        }
+        let logits_name = self.logits.clone().unwrap_or_default();
+        let objectness = self.objectness.as_ref().map(|(_, o)| (**o).clone());
+        let labels_name = labels.file.clone();
+        let temps = Temperatures(key.temperatures.clone());
+        match Batch::new(&tax, &logits_name, (*ingested).clone(), temps, labels, objectness) {
+            Ok(batch) => {
+                for slot in [Slot::Labels, Slot::Objectness] {
+                    self.errors.remove(&slot);
+                }
+                let coarse = batch.coarse_share(&tax).map_or("n/a".into(), |c| format!("{:.1} %", c * 100.0));
+                self.notes.insert(Slot::Labels, format!("{labels_name}: {} rows, {} background, coarse labels {coarse}", batch.len(), batch.background_rows()));
+                let mut names = BTreeMap::new();
+                names.insert(Slot::Taxonomy, tax_name);
+                names.insert(Slot::Logits, logits_name);
+                names.insert(Slot::Labels, labels_name);
+                if let Some((n, _)) = &self.objectness {
+                    names.insert(Slot::Objectness, n.clone());
+                }
+                self.active = Some(Active { taxonomy: tax, batch: Rc::new(batch), names });
+                self.generation += 1;
+                self.rescore();
+            }
+            Err(e) => {
+                for err in e.iter() {
+                    let slot = if self.objectness.as_ref().is_some_and(|(n, _)| *n == err.file) {
+                        Slot::Objectness
+                    } else if err.file == labels_name {
+                        Slot::Labels
+                    } else {
+                        Slot::Logits
+                    };
+                    self.errors.entry(slot).or_default().push(err.to_string());
+                }
+            }
+        }
+    }
+
+    /// Recompute everything shown from the active batch (never the softmax).
+    fn rescore(&mut self) {
+        let Some(a) = self.active.clone() else {
+            self.metrics = None;
+            return;
+        };
+        if self.settings.thresholds.validate().is_err() {
+            return;
+        }
+        self.metrics = Some(evaluate(&a.taxonomy, &a.batch, &self.settings));
+        let object = if a.batch.has_objectness() { self.settings.thresholds.object } else { 0.0 };
+        let curve_key = (self.settings.rule, object.to_bits(), self.settings.policy, self.generation);
+        if self.curve_key != Some(curve_key) {
+            self.curve = Rc::new(exact_curve(&a.taxonomy, &a.batch, self.settings.rule, object, self.settings.policy));
+            self.curve_key = Some(curve_key);
+        }
+        let depth = self.focus.clamp(1, a.taxonomy.max_depth().max(1));
+        let mut others: Vec<u64> = self.settings.thresholds.depths.iter().map(|t| t.to_bits()).collect();
+        if let Some(x) = others.get_mut(depth - 1) {
+            *x = 0;
+        }
+        others.push(object.to_bits());
+        let key = SweepKey { depth, generation: self.generation, rule: self.settings.rule, policy: self.settings.policy, thresholds: others };
+        if self.sweep_key.as_ref() != Some(&key) {
+            let mut s = self.settings.clone();
+            let points = (0..=SWEEP_STEPS)
+                .filter_map(|i| {
+                    let t = i as f64 / SWEEP_STEPS as f64;
+                    if let Some(x) = s.thresholds.depths.get_mut(depth - 1) {
+                        *x = t;
+                    }
+                    let m = evaluate(&a.taxonomy, &a.batch, &s);
+                    Some(TradePoint { threshold: t, specificity: m.specificity?, precision: m.precision? })
+                })
+                .collect();
+            self.sweep = Rc::new(points);
+            self.sweep_key = Some(key);
+        }
+    }
+
+    /// Chart 1's data.
+    pub fn tradeoff_view(&self) -> TradeoffView {
+        let curve = self.curve.iter().filter_map(|p| Some(TradePoint { threshold: p.threshold, specificity: p.specificity?, precision: p.precision? })).collect();
+        let current = self.metrics.as_ref().and_then(|m| Some(TradePoint { threshold: f64::NAN, specificity: m.specificity?, precision: m.precision? }));
+        let sweep = (!self.sweep.is_empty()).then(|| (self.focus, (*self.sweep).clone()));
+        TradeoffView { curve, current, sweep, rule: self.settings.rule.as_str().to_string() }
+    }
+
+    /// Chart 2's data.
+    pub fn stop_view(&self) -> StopView {
+        let shares = self
+            .metrics
+            .as_ref()
+            .map(|m| m.stop_outcome.iter().map(|o| (o.correct.unwrap_or(0.0), o.unverifiable.unwrap_or(0.0), o.wrong.unwrap_or(0.0))).collect())
+            .unwrap_or_default();
+        StopView { shares }
+    }
+}
+
+fn clamp01(v: f64) -> f64 {
+    if v.is_nan() {
+        0.0
+    } else {
+        v.clamp(0.0, 1.0)
+    }
+}
+
+fn messages(e: &Errors) -> Vec<String> {
+    e.iter().map(|e| e.to_string()).collect()
+}
+
+fn join(values: &[f64]) -> String {
+    values.iter().map(|v| v.to_string()).collect::<Vec<_>>().join(", ")
+}
+
+/// A ratio as the page shows it: 4 decimals, or "n/a" with no denominator.
+pub fn show_ratio(v: Option<f64>) -> String {
+    v.map_or_else(|| "n/a".to_string(), |v| format!("{v:.4}"))
+}
+
+/// One line explaining each headline number.
+pub const HELP: &[(&str, &str, &str)] = &[
+    ("predictions", "predictions", "rows that predict: P(root) reached the object threshold"),
+    ("precision", "precision", "share of predictions that are right: the true node or one of its ancestors (unverifiable ones per the policy)"),
+    ("specificity", "specificity", "mean information gain of the predicted node: 0 at the root, 1 at a leaf"),
+    ("reward", "reward", "mean information gain counted only for correct predictions"),
+    ("hierarchical-precision", "hier. precision", "shared ancestors of prediction and label over the prediction's ancestors (micro, root excluded)"),
+    ("hierarchical-recall", "hier. recall", "shared ancestors of prediction and label over the label's ancestors (micro, root excluded)"),
+    ("hierarchical-f1", "hier. F1", "harmonic mean of hierarchical precision and recall"),
+    ("mistake-severity", "mistake severity", "mean tree distance between a wrong prediction and its label, in edges"),
+];

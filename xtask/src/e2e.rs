@@ -1,0 +1,173 @@
+//! `cargo xtask e2e`: end-to-end tests of the built page in headless Chromium.
+//!
+//! Builds the page (unless `--no-build`), serves `dist/` on an ephemeral port
+//! of 127.0.0.1 on a background thread, starts chromedriver and one headless
+//! Chromium session, and runs every test in order against both the http URL
+//! and `file://…/dist/index.html`. Screenshots go to `target/e2e/`, including
+//! one per failed test (`target/e2e/failed-<test>.png`).
+//!
+//! Add tests in a module under `e2e/` and list them in [`all_tests`].
+
+mod harness;
+mod placeholder;
+mod privacy;
+
+use std::future::Future;
+use std::path::PathBuf;
+use std::pin::Pin;
+use std::sync::{Arc, Mutex};
+use std::time::Instant;
+
+use anyhow::{bail, Context};
+
+pub use harness::{Browser, Config};
+
+const USAGE: &str = "usage: cargo xtask e2e [--no-build] [--filter TEXT]
+
+  --no-build     test dist/ as it is
+  --filter TEXT  run only the tests whose name contains TEXT
+
+env: HEDGEROW_CHROMIUM, HEDGEROW_CHROMEDRIVER (default /usr/bin/chromium, /usr/bin/chromedriver)";
+
+/// What every test can use.
+pub struct Ctx {
+    /// `http://127.0.0.1:PORT/` serving `dist/`.
+    pub http_url: String,
+    /// `file:///…/dist/index.html`.
+    pub file_url: String,
+    /// Request lines the server received ("GET /"), in order.
+    pub server_log: Arc<Mutex<Vec<String>>>,
+    /// `target/e2e/`, for screenshots and other artifacts.
+    pub out_dir: PathBuf,
+}
+
+impl Ctx {
+    /// The server's request lines so far.
+    pub fn server_requests(&self) -> Vec<String> {
+        self.server_log
+            .lock()
+            .map(|l| l.clone())
+            .unwrap_or_default()
+    }
+}
+
+type TestFuture<'a> = Pin<Box<dyn Future<Output = anyhow::Result<()>> + 'a>>;
+type TestFn = for<'a> fn(&'a Browser, &'a Ctx) -> TestFuture<'a>;
+
+/// One named end-to-end test.
+pub struct Test {
+    pub name: &'static str,
+    pub run: TestFn,
+}
+
+impl Test {
+    pub const fn new(name: &'static str, run: TestFn) -> Self {
+        Self { name, run }
+    }
+}
+
+/// Every test, in the order they run.
+fn all_tests() -> Vec<Test> {
+    let mut tests = placeholder::tests();
+    tests.extend(privacy::tests());
+    tests
+}
+
+pub fn run(args: &[String]) -> anyhow::Result<()> {
+    let started = Instant::now();
+    let mut build = true;
+    let mut filter: Option<String> = None;
+    let mut it = args.iter();
+    while let Some(arg) = it.next() {
+        match arg.as_str() {
+            "--no-build" => build = false,
+            "--filter" => filter = Some(it.next().context("--filter needs a value")?.clone()),
+            "-h" | "--help" => {
+                println!("{USAGE}");
+                return Ok(());
+            }
+            other => bail!("e2e: unknown argument {other:?}\n{USAGE}"),
+        }
+    }
+
+    let dist = crate::web::dist_dir();
+    if build {
+        crate::web::build_with(&crate::web::BuildOptions::default())?;
+    } else if !dist.join("index.html").is_file() {
+        bail!("dist/index.html is missing: run `cargo xtask build-web` or drop --no-build");
+    }
+    let built = Instant::now();
+
+    let server = crate::web::StaticServer::bind(0, dist.clone())?;
+    let (http_url, server_log) = server.spawn();
+    let ctx = Ctx {
+        http_url,
+        file_url: harness::file_url(&dist.join("index.html"))?,
+        server_log,
+        out_dir: crate::root().join("target").join("e2e"),
+    };
+    std::fs::create_dir_all(&ctx.out_dir)?;
+
+    let tests: Vec<Test> = all_tests()
+        .into_iter()
+        .filter(|t| filter.as_deref().is_none_or(|f| t.name.contains(f)))
+        .collect();
+
+    let rt = tokio::runtime::Builder::new_current_thread()
+        .enable_all()
+        .build()?;
+    let (passed, failed) = rt.block_on(run_tests(&tests, &ctx))?;
+
+    eprintln!(
+        "e2e: build {:.1}s, browser tests {:.1}s, total {:.1}s",
+        (built - started).as_secs_f64(),
+        built.elapsed().as_secs_f64(),
+        started.elapsed().as_secs_f64()
+    );
+    println!("e2e: {passed} passed, {failed} failed");
+    if failed > 0 {
+        bail!("{failed} end-to-end test(s) failed");
+    }
+    Ok(())
+}
+
+async fn run_tests(tests: &[Test], ctx: &Ctx) -> anyhow::Result<(usize, usize)> {
+    let launched = Instant::now();
+    let browser = Browser::launch(&Config::from_env()).await?;
+    eprintln!(
+        "e2e: chromium up in {:.1}s; page at {} and {}",
+        launched.elapsed().as_secs_f64(),
+        ctx.http_url,
+        ctx.file_url
+    );
+    let (mut passed, mut failed) = (0, 0);
+    for test in tests {
+        let t = Instant::now();
+        match (test.run)(&browser, ctx).await {
+            Ok(()) => {
+                passed += 1;
+                eprintln!("  ok    {} ({:.2}s)", test.name, t.elapsed().as_secs_f64());
+            }
+            Err(e) => {
+                failed += 1;
+                eprintln!(
+                    "  FAIL  {} ({:.2}s): {e:#}",
+                    test.name,
+                    t.elapsed().as_secs_f64()
+                );
+                let shot = ctx.out_dir.join(format!("failed-{}.png", slug(test.name)));
+                if browser.screenshot(&shot).await.is_ok() {
+                    eprintln!("        screenshot: {}", shot.display());
+                }
+            }
+        }
+    }
+    browser.close().await?;
+    Ok((passed, failed))
+}
+
+fn slug(name: &str) -> String {
+    name.chars()
+        .map(|c| if c.is_ascii_alphanumeric() { c } else { '-' })
+        .collect()
+}
