@@ -1,7 +1,9 @@
 //! Every bad input named in the brief: exit code 2 and a message naming file, place and what
 //! was expected. One table row per case.
 
-use crate::harness::{hedgerow, logits, npy_f32, npy_header, objectness, Scratch, LABELS, TAXONOMY};
+use crate::harness::{
+    hedgerow, logits, npy_f32, npy_header, objectness, Scratch, LABELS, TAXONOMY,
+};
 
 struct Case {
     name: &'static str,
@@ -10,15 +12,33 @@ struct Case {
     expect: Vec<&'static str>,
 }
 
-fn case(name: &'static str, files: Vec<(&'static str, Vec<u8>)>, extra: &[&'static str], expect: &[&'static str]) -> Case {
-    Case { name, files, extra: extra.to_vec(), expect: expect.to_vec() }
+fn case(
+    name: &'static str,
+    files: Vec<(&'static str, Vec<u8>)>,
+    extra: &[&'static str],
+    expect: &[&'static str],
+) -> Case {
+    Case {
+        name,
+        files,
+        extra: extra.to_vec(),
+        expect: expect.to_vec(),
+    }
 }
 
 fn base() -> Vec<(&'static str, Vec<u8>)> {
-    vec![("t.csv", TAXONOMY.as_bytes().to_vec()), ("l.npy", logits(4)), ("y.csv", LABELS.as_bytes().to_vec())]
+    vec![
+        ("t.csv", TAXONOMY.as_bytes().to_vec()),
+        ("l.npy", logits(4)),
+        ("y.csv", LABELS.as_bytes().to_vec()),
+    ]
 }
 
-fn with(mut files: Vec<(&'static str, Vec<u8>)>, name: &'static str, bytes: Vec<u8>) -> Vec<(&'static str, Vec<u8>)> {
+fn with(
+    mut files: Vec<(&'static str, Vec<u8>)>,
+    name: &'static str,
+    bytes: Vec<u8>,
+) -> Vec<(&'static str, Vec<u8>)> {
     files.retain(|(n, _)| *n != name);
     files.push((name, bytes));
     files
@@ -72,15 +92,29 @@ fn every_bad_input_is_located_and_exits_2() {
         for (name, bytes) in &c.files {
             s.write(name, bytes);
         }
-        let mut args = vec!["evaluate", "--taxonomy", "t.csv", "--logits", "l.npy", "--labels", "y.csv"];
+        let mut args = vec![
+            "evaluate",
+            "--taxonomy",
+            "t.csv",
+            "--logits",
+            "l.npy",
+            "--labels",
+            "y.csv",
+        ];
         args.extend(&c.extra);
         let run = hedgerow(&s.dir, &args);
         if run.code != 2 {
-            failures.push(format!("{}: exit {} (expected 2); stderr: {}", c.name, run.code, run.stderr));
+            failures.push(format!(
+                "{}: exit {} (expected 2); stderr: {}",
+                c.name, run.code, run.stderr
+            ));
         }
         for want in &c.expect {
             if !run.stderr.contains(want) {
-                failures.push(format!("{}: stderr lacks «{want}»; it was:\n{}", c.name, run.stderr));
+                failures.push(format!(
+                    "{}: stderr lacks «{want}»; it was:\n{}",
+                    c.name, run.stderr
+                ));
             }
         }
         if !run.stdout.is_empty() {
@@ -97,7 +131,20 @@ fn several_files_wrong_at_once_are_all_reported() {
     s.write("l.npy", &npy_f32("(4, 2)", &[0.0; 8]));
     s.write("y.csv", b"label\nnope\n");
     s.write("o.npy", &objectness(&[2.0, 0.5, 0.5, 0.5]));
-    let run = hedgerow(&s.dir, &["evaluate", "--taxonomy", "t.csv", "--logits", "l.npy", "--labels", "y.csv", "--objectness", "o.npy"]);
+    let run = hedgerow(
+        &s.dir,
+        &[
+            "evaluate",
+            "--taxonomy",
+            "t.csv",
+            "--logits",
+            "l.npy",
+            "--labels",
+            "y.csv",
+            "--objectness",
+            "o.npy",
+        ],
+    );
     assert_eq!(run.code, 2);
     for want in ["y.csv, line 2", "o.npy, row 0", "l.npy: 2 columns"] {
         assert!(run.stderr.contains(want), "lacks {want}: {}", run.stderr);

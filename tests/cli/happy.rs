@@ -9,7 +9,16 @@ fn batch(s: &Scratch) {
     s.write("o.npy", &objectness(&[0.9, 0.4, 0.2, 0.8]));
 }
 
-const INPUT: [&str; 8] = ["--taxonomy", "t.csv", "--logits", "l.npy", "--labels", "y.csv", "--objectness", "o.npy"];
+const INPUT: [&str; 8] = [
+    "--taxonomy",
+    "t.csv",
+    "--logits",
+    "l.npy",
+    "--labels",
+    "y.csv",
+    "--objectness",
+    "o.npy",
+];
 
 fn json(run: &crate::harness::Run) -> serde_json::Value {
     assert_eq!(run.code, 0, "{}", run.stderr);
@@ -25,13 +34,29 @@ fn evaluate_json_has_the_documented_keys() {
     args.push("--json");
     let v = json(&hedgerow(&s.dir, &args));
     for key in [
-        "rows", "predictions", "abstained", "correct", "unverifiable", "wrong", "precision", "specificity", "reward", "stop_share", "hierarchical_precision", "hierarchical_recall",
-        "hierarchical_f1", "mistake_severity",
+        "rows",
+        "predictions",
+        "abstained",
+        "correct",
+        "unverifiable",
+        "wrong",
+        "precision",
+        "specificity",
+        "reward",
+        "stop_share",
+        "hierarchical_precision",
+        "hierarchical_recall",
+        "hierarchical_f1",
+        "mistake_severity",
     ] {
         assert!(v.get(key).is_some(), "missing {key}");
     }
     assert_eq!(v["rows"], 4);
-    assert_eq!(v["stop_share"].as_array().map(Vec::len), Some(3), "depths 0..=2");
+    assert_eq!(
+        v["stop_share"].as_array().map(Vec::len),
+        Some(3),
+        "depths 0..=2"
+    );
     // Object threshold 0.5 by default: rows 1 (0.4) and 2 (0.2) abstain.
     assert_eq!(v["abstained"], 2);
 }
@@ -48,14 +73,29 @@ fn no_predictions_gives_null_ratios_and_n_a() {
     assert!(v["precision"].is_null() && v["specificity"].is_null() && v["reward"].is_null());
     args.pop();
     let run = hedgerow(&s.dir, &args);
-    assert!(run.stdout.contains("precision         n/a"), "{}", run.stdout);
+    assert!(
+        run.stdout.contains("precision         n/a"),
+        "{}",
+        run.stdout
+    );
 }
 
 #[test]
 fn saved_profile_reproduces_the_metrics() {
     let s = Scratch::new("profile");
     batch(&s);
-    let settings = ["--rule", "conditional", "--thresholds", "0.61,0.3", "--object-threshold", "0.35", "--unverifiable", "exclude", "--temperatures", "1.5"];
+    let settings = [
+        "--rule",
+        "conditional",
+        "--thresholds",
+        "0.61,0.3",
+        "--object-threshold",
+        "0.35",
+        "--unverifiable",
+        "exclude",
+        "--temperatures",
+        "1.5",
+    ];
     let mut args = vec!["profile"];
     args.extend(INPUT);
     args.extend(settings);
@@ -69,9 +109,14 @@ fn saved_profile_reproduces_the_metrics() {
     let mut via = vec!["evaluate"];
     via.extend(INPUT);
     via.extend(["--profile", "p.json", "--json"]);
-    let (a, b) = (json(&hedgerow(&s.dir, &direct)), json(&hedgerow(&s.dir, &via)));
+    let (a, b) = (
+        json(&hedgerow(&s.dir, &direct)),
+        json(&hedgerow(&s.dir, &via)),
+    );
     assert_eq!(a, b);
-    let saved: serde_json::Value = serde_json::from_slice(&std::fs::read(s.dir.join("p.json")).expect("profile")).expect("json");
+    let saved: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(s.dir.join("p.json")).expect("profile"))
+            .expect("json");
     assert_eq!(saved["scored"]["metrics"], a);
     assert_eq!(saved["thresholds"], serde_json::json!([0.61, 0.3]));
 }
@@ -94,5 +139,11 @@ fn decode_and_curve_write_csv() {
     args.extend(INPUT);
     let run = hedgerow(&s.dir, &args);
     assert_eq!(run.code, 0);
-    assert!(run.stdout.starts_with("threshold,predictions,correct,unverifiable,wrong,precision,specificity,reward\n1,"), "{}", run.stdout);
+    assert!(
+        run.stdout.starts_with(
+            "threshold,predictions,correct,unverifiable,wrong,precision,specificity,reward\n1,"
+        ),
+        "{}",
+        run.stdout
+    );
 }

@@ -11,7 +11,11 @@ pub struct Scratch {
 impl Scratch {
     pub fn new(name: &str) -> Self {
         static N: AtomicUsize = AtomicUsize::new(0);
-        let dir = std::env::temp_dir().join(format!("hedgerow-cli-{}-{}-{name}", std::process::id(), N.fetch_add(1, Ordering::Relaxed)));
+        let dir = std::env::temp_dir().join(format!(
+            "hedgerow-cli-{}-{}-{name}",
+            std::process::id(),
+            N.fetch_add(1, Ordering::Relaxed)
+        ));
         let _ = std::fs::remove_dir_all(&dir);
         std::fs::create_dir_all(&dir).expect("scratch dir");
         Scratch { dir }
@@ -36,24 +40,27 @@ pub struct Run {
 }
 
 pub fn hedgerow(dir: &Path, args: &[&str]) -> Run {
-    let out = Command::new(env!("CARGO_BIN_EXE_hedgerow")).current_dir(dir).args(args).output().expect("run hedgerow");
-    Run { code: out.status.code().unwrap_or(-1), stdout: String::from_utf8_lossy(&out.stdout).into(), stderr: String::from_utf8_lossy(&out.stderr).into() }
+    let out = Command::new(env!("CARGO_BIN_EXE_hedgerow"))
+        .current_dir(dir)
+        .args(args)
+        .output()
+        .expect("run hedgerow");
+    Run {
+        code: out.status.code().unwrap_or(-1),
+        stdout: String::from_utf8_lossy(&out.stdout).into(),
+        stderr: String::from_utf8_lossy(&out.stderr).into(),
+    }
 }
 
-
-/// `.npy` header as numpy writes it (format 1.0, padded to a multiple of 64 bytes).
+/// A `.npy` header as numpy writes it, for a shape written like Python's tuple repr.
 pub fn npy_header(descr: &str, shape: &str) -> Vec<u8> {
-    let dict = format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape}, }}");
-    let mut len = dict.len() + 1;
-    while (10 + len) % 64 != 0 {
-        len += 1;
-    }
-    let mut out = b"\x93NUMPY\x01\x00".to_vec();
-    out.extend((len as u16).to_le_bytes());
-    out.extend(dict.as_bytes());
-    out.extend(std::iter::repeat_n(b' ', len - dict.len() - 1));
-    out.push(b'\n');
-    out
+    let dims: Vec<u64> = shape
+        .trim_matches(|c| c == '(' || c == ')')
+        .split(',')
+        .filter(|d| !d.trim().is_empty())
+        .map(|d| d.trim().parse().expect("shape"))
+        .collect();
+    hedgerow_core::npy::header_bytes(descr, &dims, false)
 }
 
 pub fn npy_f32(shape: &str, values: &[f32]) -> Vec<u8> {

@@ -2,6 +2,6 @@
 //! (evaluate, decode, curve, profile) agree with each other.
 
 mod bad_input;
-mod harness;
 mod happy;
+mod harness;
 mod readme;

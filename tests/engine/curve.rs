@@ -6,7 +6,13 @@ use crate::harness::{batch, settings, taxonomy, TREE};
 
 fn sample_rows(n: usize) -> (Vec<Vec<f64>>, Vec<&'static str>, Vec<f32>) {
     let ids = ["f", "g", "c", "e", "b", "a", "", "d"];
-    let rows = (0..n).map(|i| (0..7).map(|c| (((i * 13 + c * 7) % 17) as f64 * 0.61).cos() * 2.5).collect()).collect();
+    let rows = (0..n)
+        .map(|i| {
+            (0..7)
+                .map(|c| (((i * 13 + c * 7) % 17) as f64 * 0.61).cos() * 2.5)
+                .collect()
+        })
+        .collect();
     let labels = (0..n).map(|i| ids[i % ids.len()]).collect();
     let obj = (0..n).map(|i| ((i * 37) % 100) as f32 / 100.0).collect();
     (rows, labels, obj)
@@ -23,11 +29,19 @@ fn curve_matches_brute_force_at_every_point() {
             assert!(points.len() > 5, "{rule:?}: {} points", points.len());
             assert_eq!(points[0].threshold, 1.0);
             for w in points.windows(2) {
-                assert!(w[0].threshold > w[1].threshold, "strictly descending, ties merged");
+                assert!(
+                    w[0].threshold > w[1].threshold,
+                    "strictly descending, ties merged"
+                );
             }
             for p in &points {
                 let m = evaluate(&tax, &b, &settings(rule, &[p.threshold], 0.3, policy));
-                assert_eq!((p.correct, p.unverifiable, p.wrong, p.predictions), (m.correct, m.unverifiable, m.wrong, m.predictions), "{rule:?} t={}", p.threshold);
+                assert_eq!(
+                    (p.correct, p.unverifiable, p.wrong, p.predictions),
+                    (m.correct, m.unverifiable, m.wrong, m.predictions),
+                    "{rule:?} t={}",
+                    p.threshold
+                );
                 assert_eq!(p.precision, m.precision);
                 let (a, b2) = (p.specificity.unwrap_or(-1.0), m.specificity.unwrap_or(-1.0));
                 assert!((a - b2).abs() < 1e-12, "{a} vs {b2}");
@@ -36,7 +50,11 @@ fn curve_matches_brute_force_at_every_point() {
             for w in points.windows(2) {
                 let mid = (w[0].threshold + w[1].threshold) / 2.0;
                 let m = evaluate(&tax, &b, &settings(rule, &[mid], 0.3, policy));
-                assert_eq!((m.correct, m.wrong), (w[0].correct, w[0].wrong), "{rule:?} mid {mid}");
+                assert_eq!(
+                    (m.correct, m.wrong),
+                    (w[0].correct, w[0].wrong),
+                    "{rule:?} mid {mid}"
+                );
             }
         }
     }

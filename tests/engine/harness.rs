@@ -1,6 +1,8 @@
 //! Builders for small in-memory inputs: taxonomies from CSV text, logits as .npy bytes.
 
-use hedgerow_core::{paths, Batch, Labels, Objectness, Settings, Taxonomy, Temperatures, Thresholds};
+use hedgerow_core::{
+    paths, Batch, Labels, Objectness, Settings, Taxonomy, Temperatures, Thresholds,
+};
 
 pub fn taxonomy(csv: &str) -> Taxonomy {
     Taxonomy::parse(csv.as_bytes(), "taxonomy.csv").unwrap_or_else(|e| panic!("taxonomy: {e}"))
@@ -18,19 +20,15 @@ pub fn npy_f64(rows: &[Vec<f64>]) -> Vec<u8> {
     out
 }
 
-/// A `.npy` header padded as numpy pads it (total a multiple of 64, ending in a newline).
+/// A `.npy` header as numpy writes it, for a shape written like Python's tuple repr.
 pub fn npy_header(descr: &str, shape: &str) -> Vec<u8> {
-    let dict = format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape}, }}");
-    let mut len = dict.len() + 1;
-    while (10 + len) % 64 != 0 {
-        len += 1;
-    }
-    let mut out = b"\x93NUMPY\x01\x00".to_vec();
-    out.extend((len as u16).to_le_bytes());
-    out.extend(dict.as_bytes());
-    out.extend(std::iter::repeat_n(b' ', len - dict.len() - 1));
-    out.push(b'\n');
-    out
+    let dims: Vec<u64> = shape
+        .trim_matches(|c| c == '(' || c == ')')
+        .split(',')
+        .filter(|d| !d.trim().is_empty())
+        .map(|d| d.trim().parse().expect("shape"))
+        .collect();
+    hedgerow_core::npy::header_bytes(descr, &dims, false)
 }
 
 pub fn npy_f32_column(values: &[f32]) -> Vec<u8> {
@@ -51,21 +49,46 @@ pub fn row(tax: &Taxonomy, entries: &[(&str, f64)]) -> Vec<f64> {
 }
 
 /// A batch from rows of logits, label ids ("" = background) and optional objectness.
-pub fn batch(tax: &Taxonomy, rows: &[Vec<f64>], labels: &[&str], objectness: Option<&[f32]>, temps: &[f64]) -> Batch {
+pub fn batch(
+    tax: &Taxonomy,
+    rows: &[Vec<f64>],
+    labels: &[&str],
+    objectness: Option<&[f32]>,
+    temps: &[f64],
+) -> Batch {
     let temps = Temperatures(temps.to_vec());
-    let ingested = paths::ingest_bytes("logits.npy", tax, &temps, &npy_f64(rows)).unwrap_or_else(|e| panic!("logits: {e}"));
+    let ingested = paths::ingest_bytes("logits.npy", tax, &temps, &npy_f64(rows))
+        .unwrap_or_else(|e| panic!("logits: {e}"));
     let mut csv = String::from("label\n");
     for l in labels {
         csv.push_str(l);
         csv.push('\n');
     }
-    let labels = Labels::parse(csv.as_bytes(), "labels.csv", tax).unwrap_or_else(|e| panic!("labels: {e}"));
-    let objectness = objectness.map(|o| Objectness::parse(&npy_f32_column(o), "objectness.npy").unwrap_or_else(|e| panic!("objectness: {e}")));
-    Batch::new(tax, "logits.npy", ingested, temps, labels, objectness).unwrap_or_else(|e| panic!("batch: {e}"))
+    let labels =
+        Labels::parse(csv.as_bytes(), "labels.csv", tax).unwrap_or_else(|e| panic!("labels: {e}"));
+    let objectness = objectness.map(|o| {
+        Objectness::parse(&npy_f32_column(o), "objectness.npy")
+            .unwrap_or_else(|e| panic!("objectness: {e}"))
+    });
+    Batch::new(tax, "logits.npy", ingested, temps, labels, objectness)
+        .unwrap_or_else(|e| panic!("batch: {e}"))
 }
 
-pub fn settings(rule: hedgerow_core::Rule, depths: &[f64], object: f64, policy: hedgerow_core::Policy) -> Settings {
-    Settings { rule, thresholds: Thresholds { object, depths: depths.to_vec(), nodes: Vec::new() }, policy }
+pub fn settings(
+    rule: hedgerow_core::Rule,
+    depths: &[f64],
+    object: f64,
+    policy: hedgerow_core::Policy,
+) -> Settings {
+    Settings {
+        rule,
+        thresholds: Thresholds {
+            object,
+            depths: depths.to_vec(),
+            nodes: Vec::new(),
+        },
+        policy,
+    }
 }
 
 /// The small tree used across tests, rows deliberately out of order (a child before its

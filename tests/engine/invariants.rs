@@ -4,10 +4,30 @@
 /// hedgerow-core depends on no UI, browser, async or I/O-bound crate.
 #[test]
 fn core_depends_on_nothing_browser_or_io() {
-    let manifest = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/Cargo.toml")).expect("core manifest");
-    let deps = manifest.split("[dependencies]").nth(1).unwrap_or("").split("\n[").next().unwrap_or("");
-    for forbidden in ["yew", "web-sys", "wasm-bindgen", "js-sys", "plotters", "tokio", "reqwest", "rayon", "gloo"] {
-        assert!(!deps.lines().any(|l| l.trim_start().starts_with(forbidden)), "hedgerow-core must not depend on {forbidden}");
+    let manifest = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/Cargo.toml"))
+        .expect("core manifest");
+    let deps = manifest
+        .split("[dependencies]")
+        .nth(1)
+        .unwrap_or("")
+        .split("\n[")
+        .next()
+        .unwrap_or("");
+    for forbidden in [
+        "yew",
+        "web-sys",
+        "wasm-bindgen",
+        "js-sys",
+        "plotters",
+        "tokio",
+        "reqwest",
+        "rayon",
+        "gloo",
+    ] {
+        assert!(
+            !deps.lines().any(|l| l.trim_start().starts_with(forbidden)),
+            "hedgerow-core must not depend on {forbidden}"
+        );
     }
 }
 
@@ -18,8 +38,18 @@ fn core_sources_do_no_io() {
     for entry in std::fs::read_dir(dir).expect("src") {
         let path = entry.expect("entry").path();
         let text = std::fs::read_to_string(&path).expect("source");
-        for forbidden in ["std::fs", "std::net", "std::thread", "std::process", "File::open"] {
-            assert!(!text.contains(forbidden), "{} uses {forbidden}", path.display());
+        for forbidden in [
+            "std::fs",
+            "std::net",
+            "std::thread",
+            "std::process",
+            "File::open",
+        ] {
+            assert!(
+                !text.contains(forbidden),
+                "{} uses {forbidden}",
+                path.display()
+            );
         }
     }
 }

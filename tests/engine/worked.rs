@@ -45,13 +45,24 @@ fn path_probabilities_by_hand() {
 #[test]
 fn both_rules_by_hand() {
     let (tax, b) = one_row("g");
-    let m = evaluate(&tax, &b, &settings(Rule::Cumulative, &[0.5], 0.5, Policy::Credit));
+    let m = evaluate(
+        &tax,
+        &b,
+        &settings(Rule::Cumulative, &[0.5], 0.5, Policy::Credit),
+    );
     // a is an ancestor of g: correct; specificity = IG(a) = 0.207519; reward the same.
     assert_eq!((m.correct, m.wrong), (1, 0));
     assert!(close(m.specificity, 0.207_518_749_4));
     assert!(close(m.reward, 0.207_518_749_4));
-    assert_eq!(m.stop_share, vec![Some(0.0), Some(1.0), Some(0.0), Some(0.0)]);
-    let m = evaluate(&tax, &b, &settings(Rule::Conditional, &[0.5], 0.5, Policy::Credit));
+    assert_eq!(
+        m.stop_share,
+        vec![Some(0.0), Some(1.0), Some(0.0), Some(0.0)]
+    );
+    let m = evaluate(
+        &tax,
+        &b,
+        &settings(Rule::Conditional, &[0.5], 0.5, Policy::Credit),
+    );
     // f vs label g: wrong. Tree distance (Dekel, Keshet & Singer 2004): f and g meet at b
     // (depth 2): 3 + 3 − 2·2 = 2. Reward 0 (not correct), specificity IG(f) = 1.
     assert_eq!((m.correct, m.wrong), (0, 1));
@@ -67,7 +78,11 @@ fn both_rules_by_hand() {
 #[test]
 fn hierarchical_scores_by_hand() {
     let (tax, b) = one_row("c");
-    let m = evaluate(&tax, &b, &settings(Rule::Conditional, &[0.5], 0.5, Policy::Credit));
+    let m = evaluate(
+        &tax,
+        &b,
+        &settings(Rule::Conditional, &[0.5], 0.5, Policy::Credit),
+    );
     assert!(close(m.hierarchical_precision, 1.0 / 3.0));
     assert!(close(m.hierarchical_recall, 0.5));
     assert!(close(m.hierarchical_f1, 0.4));
@@ -82,8 +97,18 @@ fn hierarchical_scores_by_hand() {
 fn unverifiable_under_each_policy() {
     let tax = taxonomy(TREE);
     let r = row(&tax, &[("a", 3f64.ln()), ("f", 4f64.ln())]);
-    let b = batch(&tax, &[r.clone(), r.clone(), r], &["b", "f", "c"], None, &[]);
-    for (policy, want) in [(Policy::Credit, 2.0 / 3.0), (Policy::Penalize, 1.0 / 3.0), (Policy::Exclude, 0.5)] {
+    let b = batch(
+        &tax,
+        &[r.clone(), r.clone(), r],
+        &["b", "f", "c"],
+        None,
+        &[],
+    );
+    for (policy, want) in [
+        (Policy::Credit, 2.0 / 3.0),
+        (Policy::Penalize, 1.0 / 3.0),
+        (Policy::Exclude, 0.5),
+    ] {
         let m = evaluate(&tax, &b, &settings(Rule::Conditional, &[0.0], 0.5, policy));
         assert_eq!((m.correct, m.unverifiable, m.wrong), (1, 1, 1));
         assert!(close(m.precision, want), "{policy:?}: {:?}", m.precision);

@@ -9,7 +9,10 @@
 use std::collections::BTreeMap;
 use std::rc::Rc;
 
-use hedgerow_core::{evaluate, exact_curve, npy, Batch, CurvePoint, Errors, Ingested, Labels, Metrics, Objectness, Policy, Profile, Rule, Settings, Taxonomy, Temperatures};
+use hedgerow_core::{
+    evaluate, exact_curve, npy, Batch, CurvePoint, Errors, Ingested, Labels, Metrics, Objectness,
+    Policy, Profile, Rule, Settings, Taxonomy, Temperatures,
+};
 use serde::{Deserialize, Serialize};
 
 use crate::charts::{StopView, TradePoint, TradeoffView};
@@ -25,7 +28,13 @@ pub enum Slot {
 }
 
 impl Slot {
-    pub const ALL: [Slot; 5] = [Slot::Taxonomy, Slot::Logits, Slot::Labels, Slot::Objectness, Slot::Profile];
+    pub const ALL: [Slot; 5] = [
+        Slot::Taxonomy,
+        Slot::Logits,
+        Slot::Labels,
+        Slot::Objectness,
+        Slot::Profile,
+    ];
     pub fn title(self) -> &'static str {
         match self {
             Slot::Taxonomy => "taxonomy",
@@ -60,7 +69,9 @@ pub fn recognise(name: &str, head: &[u8]) -> Result<Slot, String> {
         };
     }
     if lower.ends_with(".npz") {
-        return Err(format!("{name}: .npz bundles are not read yet; save each array with np.save"));
+        return Err(format!(
+            "{name}: .npz bundles are not read yet; save each array with np.save"
+        ));
     }
     let text = String::from_utf8_lossy(head);
     let text = text.trim_start_matches('\u{feff}').trim_start();
@@ -70,7 +81,13 @@ pub fn recognise(name: &str, head: &[u8]) -> Result<Slot, String> {
     if text.starts_with('{') {
         return Ok(Slot::Profile);
     }
-    let header: Vec<String> = text.lines().next().unwrap_or("").split(',').map(|h| h.trim().trim_matches('"').to_ascii_lowercase()).collect();
+    let header: Vec<String> = text
+        .lines()
+        .next()
+        .unwrap_or("")
+        .split(',')
+        .map(|h| h.trim().trim_matches('"').to_ascii_lowercase())
+        .collect();
     let has = |c: &str| header.iter().any(|h| h == c);
     if has("id") && has("parent") {
         Ok(Slot::Taxonomy)
@@ -121,20 +138,40 @@ pub struct Stored {
 #[derive(Debug, Clone)]
 pub enum Action {
     /// A whole small file (taxonomy, labels, objectness, profile). Logits stream instead.
-    File { name: String, bytes: Rc<Vec<u8>> },
+    File {
+        name: String,
+        bytes: Rc<Vec<u8>>,
+    },
     /// The shell could not read or recognise a file.
-    Unreadable { slot: Option<Slot>, message: String },
+    Unreadable {
+        slot: Option<Slot>,
+        message: String,
+    },
     /// A logits file was chosen; the shell streams it when `wanted_ingest` asks.
-    LogitsChosen { name: String, total: u64 },
-    LogitsProgress { done: u64 },
-    LogitsDone { key: IngestKey, result: Result<Ingested, Errors> },
+    LogitsChosen {
+        name: String,
+        total: u64,
+    },
+    LogitsProgress {
+        done: u64,
+    },
+    LogitsDone {
+        key: IngestKey,
+        result: Result<Ingested, Errors>,
+    },
     LogitsCancelled,
     SetRule(Rule),
     SetPolicy(Policy),
-    SetDepth { depth: usize, value: f64 },
+    SetDepth {
+        depth: usize,
+        value: f64,
+    },
     SetObject(f64),
     SetAllDepths(f64),
-    SetTemperature { depth: usize, value: f64 },
+    SetTemperature {
+        depth: usize,
+        value: f64,
+    },
     /// The depth whose control the user is on: chart 1 shows its sweep.
     Focus(usize),
     Restore(Stored),
@@ -183,12 +220,20 @@ const SWEEP_STEPS: usize = 50;
 
 impl Board {
     pub fn new() -> Self {
-        Board { settings: Settings::default(), focus: 1, ..Board::default() }
+        Board {
+            settings: Settings::default(),
+            focus: 1,
+            ..Board::default()
+        }
     }
 
     /// Depth D of the taxonomy in use (staged, else active), or 0.
     pub fn depth(&self) -> usize {
-        self.taxonomy.as_ref().map(|(_, t)| t.max_depth()).or(self.active.as_ref().map(|a| a.taxonomy.max_depth())).unwrap_or(0)
+        self.taxonomy
+            .as_ref()
+            .map(|(_, t)| t.max_depth())
+            .or(self.active.as_ref().map(|a| a.taxonomy.max_depth()))
+            .unwrap_or(0)
     }
 
     /// The key logits must be (re)read with, when the staged paths do not match it.
@@ -198,10 +243,20 @@ impl Board {
         if self.progress.is_some() {
             return None;
         }
-        let key = IngestKey { taxonomy: tax.fingerprint().to_string(), temperatures: self.temperatures.expand(tax.max_depth()) };
+        let key = IngestKey {
+            taxonomy: tax.fingerprint().to_string(),
+            temperatures: self.temperatures.expand(tax.max_depth()),
+        };
         match &self.ingested {
             Some((k, _)) if *k == key => None,
-            _ if self.errors.get(&Slot::Logits).is_some_and(|e| !e.is_empty()) && self.logits_failed_for.as_ref() == Some(&key) => None,
+            _ if self
+                .errors
+                .get(&Slot::Logits)
+                .is_some_and(|e| !e.is_empty())
+                && self.logits_failed_for.as_ref() == Some(&key) =>
+            {
+                None
+            }
             _ => Some(key),
         }
     }
@@ -220,33 +275,50 @@ impl Board {
     pub fn profile(&self) -> Option<Profile> {
         let a = self.active.as_ref()?;
         let m = self.metrics.as_ref()?;
-        Some(Profile::new(&a.taxonomy, &self.settings, a.batch.temperatures(), Some((&a.batch, m))))
+        Some(Profile::new(
+            &a.taxonomy,
+            &self.settings,
+            a.batch.temperatures(),
+            Some((&a.batch, m)),
+        ))
     }
 
     pub fn apply(&mut self, action: Action) {
         match action {
             Action::File { name, bytes } => self.file(name, bytes),
             Action::Unreadable { slot, message } => {
-                self.errors.insert(slot.unwrap_or(Slot::Profile), vec![message]);
+                self.errors
+                    .insert(slot.unwrap_or(Slot::Profile), vec![message]);
             }
             Action::LogitsChosen { name, total } => {
                 self.logits = Some(name.clone());
                 self.errors.remove(&Slot::Logits);
                 self.logits_failed_for = None;
-                self.notes.insert(Slot::Logits, format!("{name}: waiting for a taxonomy"));
+                self.notes
+                    .insert(Slot::Logits, format!("{name}: waiting for a taxonomy"));
                 self.ingested = None;
                 self.progress = None;
                 self.pending_total = total;
             }
             Action::LogitsProgress { done } => {
                 if let Some(name) = &self.logits {
-                    self.progress = Some(Progress { name: name.clone(), done, total: self.pending_total });
+                    self.progress = Some(Progress {
+                        name: name.clone(),
+                        done,
+                        total: self.pending_total,
+                    });
                 }
             }
             Action::LogitsCancelled => {
                 self.progress = None;
-                self.logits = self.active.as_ref().and_then(|a| a.names.get(&Slot::Logits).cloned());
-                self.notes.insert(Slot::Logits, "reading cancelled; the batch in use is kept".into());
+                self.logits = self
+                    .active
+                    .as_ref()
+                    .and_then(|a| a.names.get(&Slot::Logits).cloned());
+                self.notes.insert(
+                    Slot::Logits,
+                    "reading cancelled; the batch in use is kept".into(),
+                );
                 self.ingested = None;
             }
             Action::LogitsDone { key, result } => {
@@ -256,7 +328,13 @@ impl Board {
                         let h = &ingested.header;
                         self.notes.insert(
                             Slot::Logits,
-                            format!("{}: {} rows × {} nodes, {}", self.logits.clone().unwrap_or_default(), h.shape.first().copied().unwrap_or(0), h.shape.get(1).copied().unwrap_or(0), h.dtype.name()),
+                            format!(
+                                "{}: {} rows × {} nodes, {}",
+                                self.logits.clone().unwrap_or_default(),
+                                h.shape.first().copied().unwrap_or(0),
+                                h.shape.get(1).copied().unwrap_or(0),
+                                h.dtype.name()
+                            ),
                         );
                         self.errors.remove(&Slot::Logits);
                         self.ingested = Some((key, Rc::new(ingested)));
@@ -314,9 +392,14 @@ impl Board {
                 self.settings.policy = stored.unverifiable;
                 self.settings.thresholds.object = clamp01(stored.object_threshold);
                 if !stored.thresholds.is_empty() {
-                    self.settings.thresholds.depths = stored.thresholds.iter().map(|&t| clamp01(t)).collect();
+                    self.settings.thresholds.depths =
+                        stored.thresholds.iter().map(|&t| clamp01(t)).collect();
                 }
-                if stored.temperatures.iter().all(|t| t.is_finite() && *t > 0.0) {
+                if stored
+                    .temperatures
+                    .iter()
+                    .all(|t| t.is_finite() && *t > 0.0)
+                {
                     self.temperatures = Temperatures(stored.temperatures);
                 }
                 self.fit_depths();
@@ -339,7 +422,14 @@ impl Board {
             Slot::Taxonomy => match Taxonomy::parse(&bytes, &name) {
                 Ok(tax) => {
                     let leaves = tax.total_leaves();
-                    self.notes.insert(slot, format!("{name}: {} nodes, {leaves} leaves, depth {}", tax.len(), tax.max_depth()));
+                    self.notes.insert(
+                        slot,
+                        format!(
+                            "{name}: {} nodes, {leaves} leaves, depth {}",
+                            tax.len(),
+                            tax.max_depth()
+                        ),
+                    );
                     self.taxonomy = Some((name, Rc::new(tax)));
                     self.fit_depths();
                     self.assemble();
@@ -355,7 +445,8 @@ impl Board {
             }
             Slot::Objectness => match Objectness::parse(&bytes, &name) {
                 Ok(o) => {
-                    self.notes.insert(slot, format!("{name}: {} rows", o.values.len()));
+                    self.notes
+                        .insert(slot, format!("{name}: {} rows", o.values.len()));
                     self.objectness = Some((name, Rc::new(o)));
                     self.assemble();
                 }
@@ -366,13 +457,22 @@ impl Board {
             Slot::Profile => self.load_profile(&name, &bytes),
             Slot::Logits => {
                 // Logits are streamed by the shell; a whole file handed over is read here.
-                self.errors.insert(slot, vec![format!("{name}: logits must be streamed (internal: use LogitsChosen)")]);
+                self.errors.insert(
+                    slot,
+                    vec![format!(
+                        "{name}: logits must be streamed (internal: use LogitsChosen)"
+                    )],
+                );
             }
         }
     }
 
     fn load_profile(&mut self, name: &str, bytes: &[u8]) {
-        let Some((_, tax)) = self.taxonomy.clone().or(self.active.as_ref().map(|a| (String::new(), a.taxonomy.clone()))) else {
+        let Some((_, tax)) = self.taxonomy.clone().or(self
+            .active
+            .as_ref()
+            .map(|a| (String::new(), a.taxonomy.clone())))
+        else {
             self.errors.insert(Slot::Profile, vec![format!("{name}: load a taxonomy first: a profile is checked against the taxonomy it was made for")]);
             return;
         };
@@ -382,11 +482,19 @@ impl Board {
                     self.settings = s;
                     self.temperatures = p.temperatures();
                     self.fit_depths();
-                    self.notes.insert(Slot::Profile, format!("{name}: {} rule, thresholds {}", p.rule.as_str(), join(&p.thresholds)));
+                    self.notes.insert(
+                        Slot::Profile,
+                        format!(
+                            "{name}: {} rule, thresholds {}",
+                            p.rule.as_str(),
+                            join(&p.thresholds)
+                        ),
+                    );
                     self.rescore();
                 }
                 Err(k) => {
-                    self.errors.insert(Slot::Profile, vec![format!("{name}: {k}")]);
+                    self.errors
+                        .insert(Slot::Profile, vec![format!("{name}: {k}")]);
                 }
             },
             Err(e) => {
@@ -415,7 +523,9 @@ impl Board {
 
     /// Try to build a batch from the staged files; on success it becomes active.
     fn assemble(&mut self) {
-        let Some((tax_name, tax)) = self.taxonomy.clone() else { return };
+        let Some((tax_name, tax)) = self.taxonomy.clone() else {
+            return;
+        };
         let labels = match &self.labels {
             Some((name, bytes)) => match Labels::parse(bytes, name, &tax) {
                 Ok(l) => {
@@ -429,7 +539,9 @@ impl Board {
             },
             None => None,
         };
-        let (Some(labels), Some((key, ingested))) = (labels, self.ingested.clone()) else { return };
+        let (Some(labels), Some((key, ingested))) = (labels, self.ingested.clone()) else {
+            return;
+        };
         if key.taxonomy != tax.fingerprint() {
             return;
         }
@@ -437,13 +549,29 @@ impl Board {
         let objectness = self.objectness.as_ref().map(|(_, o)| (**o).clone());
         let labels_name = labels.file.clone();
         let temps = Temperatures(key.temperatures.clone());
-        match Batch::new(&tax, &logits_name, (*ingested).clone(), temps, labels, objectness) {
+        match Batch::new(
+            &tax,
+            &logits_name,
+            (*ingested).clone(),
+            temps,
+            labels,
+            objectness,
+        ) {
             Ok(batch) => {
                 for slot in [Slot::Labels, Slot::Objectness] {
                     self.errors.remove(&slot);
                 }
-                let coarse = batch.coarse_share(&tax).map_or("n/a".into(), |c| format!("{:.1} %", c * 100.0));
-                self.notes.insert(Slot::Labels, format!("{labels_name}: {} rows, {} background, coarse labels {coarse}", batch.len(), batch.background_rows()));
+                let coarse = batch
+                    .coarse_share(&tax)
+                    .map_or("n/a".into(), |c| format!("{:.1} %", c * 100.0));
+                self.notes.insert(
+                    Slot::Labels,
+                    format!(
+                        "{labels_name}: {} rows, {} background, coarse labels {coarse}",
+                        batch.len(),
+                        batch.background_rows()
+                    ),
+                );
                 let mut names = BTreeMap::new();
                 names.insert(Slot::Taxonomy, tax_name);
                 names.insert(Slot::Logits, logits_name);
@@ -451,13 +579,21 @@ impl Board {
                 if let Some((n, _)) = &self.objectness {
                     names.insert(Slot::Objectness, n.clone());
                 }
-                self.active = Some(Active { taxonomy: tax, batch: Rc::new(batch), names });
+                self.active = Some(Active {
+                    taxonomy: tax,
+                    batch: Rc::new(batch),
+                    names,
+                });
                 self.generation += 1;
                 self.rescore();
             }
             Err(e) => {
                 for err in e.iter() {
-                    let slot = if self.objectness.as_ref().is_some_and(|(n, _)| *n == err.file) {
+                    let slot = if self
+                        .objectness
+                        .as_ref()
+                        .is_some_and(|(n, _)| *n == err.file)
+                    {
                         Slot::Objectness
                     } else if err.file == labels_name {
                         Slot::Labels
@@ -480,19 +616,46 @@ impl Board {
             return;
         }
         self.metrics = Some(evaluate(&a.taxonomy, &a.batch, &self.settings));
-        let object = if a.batch.has_objectness() { self.settings.thresholds.object } else { 0.0 };
-        let curve_key = (self.settings.rule, object.to_bits(), self.settings.policy, self.generation);
+        let object = if a.batch.has_objectness() {
+            self.settings.thresholds.object
+        } else {
+            0.0
+        };
+        let curve_key = (
+            self.settings.rule,
+            object.to_bits(),
+            self.settings.policy,
+            self.generation,
+        );
         if self.curve_key != Some(curve_key) {
-            self.curve = Rc::new(exact_curve(&a.taxonomy, &a.batch, self.settings.rule, object, self.settings.policy));
+            self.curve = Rc::new(exact_curve(
+                &a.taxonomy,
+                &a.batch,
+                self.settings.rule,
+                object,
+                self.settings.policy,
+            ));
             self.curve_key = Some(curve_key);
         }
         let depth = self.focus.clamp(1, a.taxonomy.max_depth().max(1));
-        let mut others: Vec<u64> = self.settings.thresholds.depths.iter().map(|t| t.to_bits()).collect();
+        let mut others: Vec<u64> = self
+            .settings
+            .thresholds
+            .depths
+            .iter()
+            .map(|t| t.to_bits())
+            .collect();
         if let Some(x) = others.get_mut(depth - 1) {
             *x = 0;
         }
         others.push(object.to_bits());
-        let key = SweepKey { depth, generation: self.generation, rule: self.settings.rule, policy: self.settings.policy, thresholds: others };
+        let key = SweepKey {
+            depth,
+            generation: self.generation,
+            rule: self.settings.rule,
+            policy: self.settings.policy,
+            thresholds: others,
+        };
         if self.sweep_key.as_ref() != Some(&key) {
             let mut s = self.settings.clone();
             let points = (0..=SWEEP_STEPS)
@@ -502,7 +665,11 @@ impl Board {
                         *x = t;
                     }
                     let m = evaluate(&a.taxonomy, &a.batch, &s);
-                    Some(TradePoint { threshold: t, specificity: m.specificity?, precision: m.precision? })
+                    Some(TradePoint {
+                        threshold: t,
+                        specificity: m.specificity?,
+                        precision: m.precision?,
+                    })
                 })
                 .collect();
             self.sweep = Rc::new(points);
@@ -512,10 +679,31 @@ impl Board {
 
     /// Chart 1's data.
     pub fn tradeoff_view(&self) -> TradeoffView {
-        let curve = self.curve.iter().filter_map(|p| Some(TradePoint { threshold: p.threshold, specificity: p.specificity?, precision: p.precision? })).collect();
-        let current = self.metrics.as_ref().and_then(|m| Some(TradePoint { threshold: f64::NAN, specificity: m.specificity?, precision: m.precision? }));
+        let curve = self
+            .curve
+            .iter()
+            .filter_map(|p| {
+                Some(TradePoint {
+                    threshold: p.threshold,
+                    specificity: p.specificity?,
+                    precision: p.precision?,
+                })
+            })
+            .collect();
+        let current = self.metrics.as_ref().and_then(|m| {
+            Some(TradePoint {
+                threshold: f64::NAN,
+                specificity: m.specificity?,
+                precision: m.precision?,
+            })
+        });
         let sweep = (!self.sweep.is_empty()).then(|| (self.focus, (*self.sweep).clone()));
-        TradeoffView { curve, current, sweep, rule: self.settings.rule.as_str().to_string() }
+        TradeoffView {
+            curve,
+            current,
+            sweep,
+            rule: self.settings.rule.as_str().to_string(),
+        }
     }
 
     /// Chart 2's data.
@@ -523,7 +711,18 @@ impl Board {
         let shares = self
             .metrics
             .as_ref()
-            .map(|m| m.stop_outcome.iter().map(|o| (o.correct.unwrap_or(0.0), o.unverifiable.unwrap_or(0.0), o.wrong.unwrap_or(0.0))).collect())
+            .map(|m| {
+                m.stop_outcome
+                    .iter()
+                    .map(|o| {
+                        (
+                            o.correct.unwrap_or(0.0),
+                            o.unverifiable.unwrap_or(0.0),
+                            o.wrong.unwrap_or(0.0),
+                        )
+                    })
+                    .collect()
+            })
             .unwrap_or_default();
         StopView { shares }
     }
@@ -542,7 +741,11 @@ fn messages(e: &Errors) -> Vec<String> {
 }
 
 fn join(values: &[f64]) -> String {
-    values.iter().map(|v| v.to_string()).collect::<Vec<_>>().join(", ")
+    values
+        .iter()
+        .map(|v| v.to_string())
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 /// A ratio as the page shows it: 4 decimals, or "n/a" with no denominator.

@@ -4,7 +4,10 @@ use std::fs::File;
 use std::io::Read;
 use std::path::Path;
 
-use hedgerow_core::{Batch, Errors, Labels, LogitsReader, Objectness, Policy, Profile, Rule, Settings, Taxonomy, Temperatures, Thresholds};
+use hedgerow_core::{
+    Batch, Errors, Labels, LogitsReader, Objectness, Policy, Profile, Rule, Settings, Taxonomy,
+    Temperatures, Thresholds,
+};
 
 use crate::{Input, SettingArgs};
 
@@ -35,14 +38,18 @@ fn display(path: &Path) -> String {
 }
 
 fn read(path: &Path) -> Result<Vec<u8>, Failure> {
-    std::fs::read(path).map_err(|e| Failure::Input(vec![format!("{}: cannot read: {e}", display(path))]))
+    std::fs::read(path)
+        .map_err(|e| Failure::Input(vec![format!("{}: cannot read: {e}", display(path))]))
 }
 
 fn numbers(flag: &str, text: &str) -> Result<Vec<f64>, String> {
     text.split(',')
         .map(|part| {
             let t = part.trim();
-            t.parse::<f64>().ok().filter(|v| v.is_finite()).ok_or_else(|| format!("{flag}: expected numbers separated by commas, found `{t}`"))
+            t.parse::<f64>()
+                .ok()
+                .filter(|v| v.is_finite())
+                .ok_or_else(|| format!("{flag}: expected numbers separated by commas, found `{t}`"))
         })
         .collect()
 }
@@ -54,7 +61,8 @@ impl Loaded {
         let (settings, temperatures) = settings(&taxonomy, args)?;
 
         let mut problems = Vec::new();
-        let labels = match Labels::parse(&read(&input.labels)?, &display(&input.labels), &taxonomy) {
+        let labels = match Labels::parse(&read(&input.labels)?, &display(&input.labels), &taxonomy)
+        {
             Ok(l) => Some(l),
             Err(e) => {
                 problems.extend(e.iter().map(|e| e.to_string()));
@@ -83,23 +91,46 @@ impl Loaded {
             return Err(Failure::Input(problems));
         }
         let (Some(ingested), Some(labels)) = (ingested, labels) else {
-            return Err(Failure::Other(anyhow::anyhow!("inputs missing after loading")));
+            return Err(Failure::Other(anyhow::anyhow!(
+                "inputs missing after loading"
+            )));
         };
         if input.objectness.is_some() && objectness.is_none() {
-            return Err(Failure::Other(anyhow::anyhow!("objectness missing after loading")));
+            return Err(Failure::Other(anyhow::anyhow!(
+                "objectness missing after loading"
+            )));
         }
-        let batch = Batch::new(&taxonomy, &logits_name, ingested, temperatures, labels, objectness)?;
-        Ok(Loaded { taxonomy, batch, settings })
+        let batch = Batch::new(
+            &taxonomy,
+            &logits_name,
+            ingested,
+            temperatures,
+            labels,
+            objectness,
+        )?;
+        Ok(Loaded {
+            taxonomy,
+            batch,
+            settings,
+        })
     }
 }
 
 /// Read the logits file chunk by chunk into greedy paths.
-fn stream_logits(path: &Path, name: &str, tax: &Taxonomy, temps: &Temperatures) -> Result<hedgerow_core::Result<hedgerow_core::Ingested>, Failure> {
-    let mut file = File::open(path).map_err(|e| Failure::Input(vec![format!("{name}: cannot read: {e}")]))?;
+fn stream_logits(
+    path: &Path,
+    name: &str,
+    tax: &Taxonomy,
+    temps: &Temperatures,
+) -> Result<hedgerow_core::Result<hedgerow_core::Ingested>, Failure> {
+    let mut file =
+        File::open(path).map_err(|e| Failure::Input(vec![format!("{name}: cannot read: {e}")]))?;
     let mut reader = LogitsReader::new(name, tax, temps);
     let mut buf = vec![0u8; CHUNK];
     loop {
-        let n = file.read(&mut buf).map_err(|e| Failure::Input(vec![format!("{name}: cannot read: {e}")]))?;
+        let n = file
+            .read(&mut buf)
+            .map_err(|e| Failure::Input(vec![format!("{name}: cannot read: {e}")]))?;
         if n == 0 {
             break;
         }
@@ -115,7 +146,9 @@ fn settings(tax: &Taxonomy, args: &SettingArgs) -> Result<(Settings, Temperature
     let (mut settings, mut temps) = match &args.profile {
         Some(path) => {
             let profile = Profile::from_json(&read(path)?, &display(path), tax)?;
-            let s = profile.settings(tax).map_err(|k| Failure::Input(vec![format!("{}: {k}", display(path))]))?;
+            let s = profile
+                .settings(tax)
+                .map_err(|k| Failure::Input(vec![format!("{}: {k}", display(path))]))?;
             (s, profile.temperatures())
         }
         None => (Settings::default(), Temperatures::default()),
@@ -124,17 +157,24 @@ fn settings(tax: &Taxonomy, args: &SettingArgs) -> Result<(Settings, Temperature
     if let Some(rule) = &args.rule {
         match Rule::parse(rule) {
             Some(r) => settings.rule = r,
-            None => problems.push(format!("--rule: expected cumulative or conditional, found `{rule}`")),
+            None => problems.push(format!(
+                "--rule: expected cumulative or conditional, found `{rule}`"
+            )),
         }
     }
     if let Some(policy) = &args.unverifiable {
         match Policy::parse(policy) {
             Some(p) => settings.policy = p,
-            None => problems.push(format!("--unverifiable: expected credit, penalize or exclude, found `{policy}`")),
+            None => problems.push(format!(
+                "--unverifiable: expected credit, penalize or exclude, found `{policy}`"
+            )),
         }
     }
     let nodes = settings.thresholds.nodes.clone();
-    let mut thresholds = Thresholds { nodes, ..settings.thresholds.clone() };
+    let mut thresholds = Thresholds {
+        nodes,
+        ..settings.thresholds.clone()
+    };
     if let Some(text) = &args.thresholds {
         match numbers("--thresholds", text) {
             Ok(v) => thresholds.depths = v,
@@ -144,7 +184,9 @@ fn settings(tax: &Taxonomy, args: &SettingArgs) -> Result<(Settings, Temperature
     if let Some(text) = &args.object_threshold {
         match numbers("--object-threshold", text).as_deref() {
             Ok([v]) => thresholds.object = *v,
-            Ok(_) => problems.push(format!("--object-threshold: expected one number, found `{text}`")),
+            Ok(_) => problems.push(format!(
+                "--object-threshold: expected one number, found `{text}`"
+            )),
             Err(m) => problems.push(m.clone()),
         }
     }

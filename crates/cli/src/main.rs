@@ -13,7 +13,11 @@ use hedgerow_core::{decode_row, evaluate, exact_curve, Profile};
 use crate::load::{Failure, Loaded};
 
 #[derive(Parser)]
-#[command(name = "hedgerow", version, about = "Decode taxonomy predictions under per-depth stopping thresholds and score them.")]
+#[command(
+    name = "hedgerow",
+    version,
+    about = "Decode taxonomy predictions under per-depth stopping thresholds and score them."
+)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -119,7 +123,11 @@ fn main() -> ExitCode {
 
 fn run(cli: Cli) -> Result<(), Failure> {
     match cli.command {
-        Command::Evaluate { input, settings, json } => {
+        Command::Evaluate {
+            input,
+            settings,
+            json,
+        } => {
             let loaded = Loaded::load(&input, &settings)?;
             let metrics = evaluate(&loaded.taxonomy, &loaded.batch, &loaded.settings);
             let text = if json {
@@ -129,22 +137,48 @@ fn run(cli: Cli) -> Result<(), Failure> {
             };
             write_out(None, text.as_bytes())
         }
-        Command::Decode { input, settings, out } => {
+        Command::Decode {
+            input,
+            settings,
+            out,
+        } => {
             let loaded = Loaded::load(&input, &settings)?;
-            let bytes = report::decode_csv(&loaded, |r, th| decode_row(&loaded.taxonomy, &loaded.batch, &loaded.settings, th, r)).map_err(Failure::Other)?;
+            let bytes = report::decode_csv(&loaded, |r, th| {
+                decode_row(&loaded.taxonomy, &loaded.batch, &loaded.settings, th, r)
+            })
+            .map_err(Failure::Other)?;
             write_out(out.as_ref(), &bytes)
         }
-        Command::Curve { input, settings, out } => {
+        Command::Curve {
+            input,
+            settings,
+            out,
+        } => {
             let loaded = Loaded::load(&input, &settings)?;
             let s = &loaded.settings;
-            let points = exact_curve(&loaded.taxonomy, &loaded.batch, s.rule, s.thresholds.object, s.policy);
+            let points = exact_curve(
+                &loaded.taxonomy,
+                &loaded.batch,
+                s.rule,
+                s.thresholds.object,
+                s.policy,
+            );
             let bytes = report::curve_csv(&points).map_err(Failure::Other)?;
             write_out(out.as_ref(), &bytes)
         }
-        Command::Profile { input, settings, out } => {
+        Command::Profile {
+            input,
+            settings,
+            out,
+        } => {
             let loaded = Loaded::load(&input, &settings)?;
             let metrics = evaluate(&loaded.taxonomy, &loaded.batch, &loaded.settings);
-            let profile = Profile::new(&loaded.taxonomy, &loaded.settings, loaded.batch.temperatures(), Some((&loaded.batch, &metrics)));
+            let profile = Profile::new(
+                &loaded.taxonomy,
+                &loaded.settings,
+                loaded.batch.temperatures(),
+                Some((&loaded.batch, &metrics)),
+            );
             write_out(out.as_ref(), (profile.to_json() + "\n").as_bytes())
         }
     }
@@ -152,8 +186,12 @@ fn run(cli: Cli) -> Result<(), Failure> {
 
 fn write_out(path: Option<&PathBuf>, bytes: &[u8]) -> Result<(), Failure> {
     let result = match path {
-        Some(p) => std::fs::write(p, bytes).map_err(|e| anyhow::anyhow!("cannot write {}: {e}", p.display())),
-        None => std::io::stdout().lock().write_all(bytes).map_err(|e| anyhow::anyhow!("cannot write to standard output: {e}")),
+        Some(p) => std::fs::write(p, bytes)
+            .map_err(|e| anyhow::anyhow!("cannot write {}: {e}", p.display())),
+        None => std::io::stdout()
+            .lock()
+            .write_all(bytes)
+            .map_err(|e| anyhow::anyhow!("cannot write to standard output: {e}")),
     };
     result.map_err(Failure::Other)
 }

@@ -19,16 +19,39 @@ pub fn table(loaded: &Loaded, m: &Metrics) -> String {
     let s = &loaded.settings;
     let tax = &loaded.taxonomy;
     let mut out = String::new();
-    let depths: Vec<String> = (1..=tax.max_depth()).map(|d| format!("d{d} {}", s.thresholds.at_depth(d))).collect();
-    let _ = writeln!(out, "{} rows ({} labelled, {} background), {} nodes, depth {}", m.rows, m.labelled_rows, m.background_rows, tax.len(), tax.max_depth());
-    let object = if loaded.batch.has_objectness() { format!("object {}, ", s.thresholds.object) } else { String::new() };
-    let _ = writeln!(out, "rule {}, thresholds: {object}{}, unverifiable: {}", s.rule.as_str(), depths.join(", "), s.policy.as_str());
+    let depths: Vec<String> = (1..=tax.max_depth())
+        .map(|d| format!("d{d} {}", s.thresholds.at_depth(d)))
+        .collect();
+    let _ = writeln!(
+        out,
+        "{} rows ({} labelled, {} background), {} nodes, depth {}",
+        m.rows,
+        m.labelled_rows,
+        m.background_rows,
+        tax.len(),
+        tax.max_depth()
+    );
+    let object = if loaded.batch.has_objectness() {
+        format!("object {}, ", s.thresholds.object)
+    } else {
+        String::new()
+    };
+    let _ = writeln!(
+        out,
+        "rule {}, thresholds: {object}{}, unverifiable: {}",
+        s.rule.as_str(),
+        depths.join(", "),
+        s.policy.as_str()
+    );
     let _ = writeln!(out);
     let rows: [(&str, String); 14] = [
         ("predictions", m.predictions.to_string()),
         ("  correct", m.correct.to_string()),
         ("  unverifiable", m.unverifiable.to_string()),
-        ("  wrong", format!("{} ({} false alarms)", m.wrong, m.false_alarms)),
+        (
+            "  wrong",
+            format!("{} ({} false alarms)", m.wrong, m.false_alarms),
+        ),
         ("abstained", m.abstained.to_string()),
         ("precision", show(m.precision)),
         ("specificity", show(m.specificity)),
@@ -38,25 +61,50 @@ pub fn table(loaded: &Loaded, m: &Metrics) -> String {
         ("hier. F1", show(m.hierarchical_f1)),
         ("mistake severity", show(m.mistake_severity)),
         ("", String::new()),
-        ("stop depth", "share    correct  unverif.  wrong".to_string()),
+        (
+            "stop depth",
+            "share    correct  unverif.  wrong".to_string(),
+        ),
     ];
     for (k, v) in rows {
         let _ = writeln!(out, "{k:<18}{v}");
     }
     for (d, (share, o)) in m.stop_share.iter().zip(&m.stop_outcome).enumerate() {
-        let _ = writeln!(out, "{:<18}{:<9}{:<9}{:<10}{}", d, show(*share), show(o.correct), show(o.unverifiable), show(o.wrong));
+        let _ = writeln!(
+            out,
+            "{:<18}{:<9}{:<9}{:<10}{}",
+            d,
+            show(*share),
+            show(o.correct),
+            show(o.unverifiable),
+            show(o.wrong)
+        );
     }
     out
 }
 
 /// One row per input row; per depth d the node, its conditional and its cumulative probability.
-pub fn decode_csv(loaded: &Loaded, decode: impl Fn(usize, &[f64]) -> RowDecode) -> anyhow::Result<Vec<u8>> {
+pub fn decode_csv(
+    loaded: &Loaded,
+    decode: impl Fn(usize, &[f64]) -> RowDecode,
+) -> anyhow::Result<Vec<u8>> {
     let tax = &loaded.taxonomy;
     let thresholds = loaded.settings.thresholds.resolve(tax);
     let mut w = csv::Writer::from_writer(Vec::new());
-    let mut header = vec!["row".to_string(), "label".into(), "predicted".into(), "depth".into(), "probability".into(), "outcome".into()];
+    let mut header = vec![
+        "row".to_string(),
+        "label".into(),
+        "predicted".into(),
+        "depth".into(),
+        "probability".into(),
+        "outcome".into(),
+    ];
     for d in 1..=tax.max_depth() {
-        header.extend([format!("node_{d}"), format!("conditional_{d}"), format!("cumulative_{d}")]);
+        header.extend([
+            format!("node_{d}"),
+            format!("conditional_{d}"),
+            format!("cumulative_{d}"),
+        ]);
     }
     w.write_record(&header)?;
     for r in 0..loaded.batch.len() {
@@ -65,25 +113,44 @@ pub fn decode_csv(loaded: &Loaded, decode: impl Fn(usize, &[f64]) -> RowDecode) 
         let mut rec = vec![
             r.to_string(),
             tax.id(label).to_string(),
-            row.predicted.map(|v| tax.id(v).to_string()).unwrap_or_default(),
-            if row.predicted.is_some() { row.depth.to_string() } else { String::new() },
+            row.predicted
+                .map(|v| tax.id(v).to_string())
+                .unwrap_or_default(),
+            if row.predicted.is_some() {
+                row.depth.to_string()
+            } else {
+                String::new()
+            },
             row.probability.to_string(),
             row.outcome.as_str().to_string(),
         ];
         for d in 0..tax.max_depth() {
             match row.path.get(d) {
-                Some(step) => rec.extend([tax.id(step.node).to_string(), step.conditional.to_string(), step.cumulative.to_string()]),
+                Some(step) => rec.extend([
+                    tax.id(step.node).to_string(),
+                    step.conditional.to_string(),
+                    step.cumulative.to_string(),
+                ]),
                 None => rec.extend([String::new(), String::new(), String::new()]),
             }
         }
         w.write_record(&rec)?;
     }
-    Ok(w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?)
+    w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))
 }
 
 pub fn curve_csv(points: &[CurvePoint]) -> anyhow::Result<Vec<u8>> {
     let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record(["threshold", "predictions", "correct", "unverifiable", "wrong", "precision", "specificity", "reward"])?;
+    w.write_record([
+        "threshold",
+        "predictions",
+        "correct",
+        "unverifiable",
+        "wrong",
+        "precision",
+        "specificity",
+        "reward",
+    ])?;
     for p in points {
         w.write_record([
             p.threshold.to_string(),
@@ -96,5 +163,5 @@ pub fn curve_csv(points: &[CurvePoint]) -> anyhow::Result<Vec<u8>> {
             cell(p.reward),
         ])?;
     }
-    Ok(w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?)
+    w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))
 }

@@ -2,7 +2,10 @@
 //! the exact curve, and ingestion (read + softmax + greedy path) of in-memory .npy bytes.
 
 use criterion::{criterion_group, criterion_main, BatchSize, Criterion, Throughput};
-use hedgerow_core::{evaluate, exact_curve, paths, Batch, Paths, Policy, Rule, Settings, Taxonomy, Temperatures, Thresholds};
+use hedgerow_core::{
+    evaluate, exact_curve, paths, Batch, Paths, Policy, Rule, Settings, Taxonomy, Temperatures,
+    Thresholds,
+};
 
 /// A balanced tree: `fanout` children per node down to `depth`.
 fn tree(fanout: usize, depth: usize) -> Taxonomy {
@@ -61,7 +64,14 @@ fn synthetic_batch(tax: &Taxonomy, rows: usize) -> Batch {
         });
         obj.push(rng.unit() as f32);
     }
-    Batch::from_parts(tax, p, labels, Some(obj), Temperatures::default(), String::new())
+    Batch::from_parts(
+        tax,
+        p,
+        labels,
+        Some(obj),
+        Temperatures::default(),
+        String::new(),
+    )
 }
 
 fn bench_evaluate(c: &mut Criterion) {
@@ -72,13 +82,25 @@ fn bench_evaluate(c: &mut Criterion) {
     group.throughput(Throughput::Elements(rows as u64));
     group.sample_size(20);
     for rule in [Rule::Cumulative, Rule::Conditional] {
-        let settings = Settings { rule, thresholds: Thresholds { object: 0.3, depths: vec![0.6, 0.5, 0.4, 0.35, 0.3], nodes: Vec::new() }, policy: Policy::Credit };
-        group.bench_function(format!("1M rows, depth 5, {}", rule.as_str()), |b| b.iter(|| evaluate(&tax, &batch, &settings)));
+        let settings = Settings {
+            rule,
+            thresholds: Thresholds {
+                object: 0.3,
+                depths: vec![0.6, 0.5, 0.4, 0.35, 0.3],
+                nodes: Vec::new(),
+            },
+            policy: Policy::Credit,
+        };
+        group.bench_function(format!("1M rows, depth 5, {}", rule.as_str()), |b| {
+            b.iter(|| evaluate(&tax, &batch, &settings))
+        });
     }
     group.finish();
     let mut group = c.benchmark_group("curve");
     group.sample_size(10);
-    group.bench_function("1M rows, depth 5, cumulative", |b| b.iter(|| exact_curve(&tax, &batch, Rule::Cumulative, 0.3, Policy::Credit)));
+    group.bench_function("1M rows, depth 5, cumulative", |b| {
+        b.iter(|| exact_curve(&tax, &batch, Rule::Cumulative, 0.3, Policy::Credit))
+    });
     group.finish();
 }
 
@@ -87,16 +109,7 @@ fn bench_ingest(c: &mut Criterion) {
     let rows = 20_000;
     let mut rng = Mix(11);
     let m = tax.len();
-    let dict = format!("{{'descr': '<f2', 'fortran_order': False, 'shape': ({rows}, {m}), }}");
-    let mut len = dict.len() + 1;
-    while (10 + len) % 64 != 0 {
-        len += 1;
-    }
-    let mut bytes = b"\x93NUMPY\x01\x00".to_vec();
-    bytes.extend((len as u16).to_le_bytes());
-    bytes.extend(dict.as_bytes());
-    bytes.extend(std::iter::repeat_n(b' ', len - dict.len() - 1));
-    bytes.push(b'\n');
+    let mut bytes = hedgerow_core::npy::header_bytes("<f2", &[rows as u64, m as u64], false);
     for _ in 0..rows * m {
         bytes.extend(half::f16::from_f64(rng.unit() * 8.0 - 4.0).to_le_bytes());
     }
@@ -104,7 +117,14 @@ fn bench_ingest(c: &mut Criterion) {
     group.throughput(Throughput::Bytes(bytes.len() as u64));
     group.sample_size(10);
     group.bench_function("20k rows x 340 nodes f16", |b| {
-        b.iter_batched(|| (), |_| paths::ingest_bytes("bench.npy", &tax, &Temperatures::default(), &bytes).expect("ingest"), BatchSize::SmallInput)
+        b.iter_batched(
+            || (),
+            |_| {
+                paths::ingest_bytes("bench.npy", &tax, &Temperatures::default(), &bytes)
+                    .expect("ingest")
+            },
+            BatchSize::SmallInput,
+        )
     });
     group.finish();
 }

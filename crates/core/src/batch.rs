@@ -29,11 +29,31 @@ impl Labels {
         let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
         let single = quote_blank_lines(bytes);
         let bytes = single.as_deref().unwrap_or(bytes);
-        let mut reader = csv::ReaderBuilder::new().has_headers(true).from_reader(bytes);
-        let headers = reader.headers().map_err(|e| Error::new(file, Location::line(1), ErrorKind::Csv(e.to_string())))?.clone();
-        let Some(col) = headers.iter().position(|h| h.trim().eq_ignore_ascii_case("label")) else {
-            let found = headers.iter().map(|h| format!("`{h}`")).collect::<Vec<_>>().join(", ");
-            return Err(Error::new(file, Location::line(1), ErrorKind::MissingColumn { expected: "label", found }).into());
+        let mut reader = csv::ReaderBuilder::new()
+            .has_headers(true)
+            .from_reader(bytes);
+        let headers = reader
+            .headers()
+            .map_err(|e| Error::new(file, Location::line(1), ErrorKind::Csv(e.to_string())))?
+            .clone();
+        let Some(col) = headers
+            .iter()
+            .position(|h| h.trim().eq_ignore_ascii_case("label"))
+        else {
+            let found = headers
+                .iter()
+                .map(|h| format!("`{h}`"))
+                .collect::<Vec<_>>()
+                .join(", ");
+            return Err(Error::new(
+                file,
+                Location::line(1),
+                ErrorKind::MissingColumn {
+                    expected: "label",
+                    found,
+                },
+            )
+            .into());
         };
         let mut errors = Collector::default();
         let mut nodes = Vec::new();
@@ -47,25 +67,46 @@ impl Labels {
                     } else if let Some(v) = tax.lookup(value) {
                         nodes.push(v);
                     } else {
-                        errors.push(Error::new(file, Location::line(line).column("label"), ErrorKind::UnknownLabel { found: value.to_string() }));
+                        errors.push(Error::new(
+                            file,
+                            Location::line(line).column("label"),
+                            ErrorKind::UnknownLabel {
+                                found: value.to_string(),
+                            },
+                        ));
                         nodes.push(NONE);
                     }
                 }
                 Err(e) => {
                     let line = e.position().map(|p| p.line()).unwrap_or(0);
-                    errors.push(Error::new(file, Location::line(line), ErrorKind::Csv(e.to_string())));
+                    errors.push(Error::new(
+                        file,
+                        Location::line(line),
+                        ErrorKind::Csv(e.to_string()),
+                    ));
                 }
             }
         }
         errors.finish(file)?;
-        Ok(Labels { file: file.to_string(), nodes })
+        Ok(Labels {
+            file: file.to_string(),
+            nodes,
+        })
     }
 
     pub fn from_npy(bytes: &[u8], file: &str, tax: &Taxonomy) -> Result<Self> {
         let array = npy::read_array(bytes).map_err(|k| Error::new(file, Location::default(), k))?;
         let h = &array.header;
         if !h.dtype.scalar.is_integer() {
-            return Err(Error::new(file, Location::default(), ErrorKind::Dtype { found: h.dtype.name().into(), expected: "an integer dtype (column index, -1 for background)" }).into());
+            return Err(Error::new(
+                file,
+                Location::default(),
+                ErrorKind::Dtype {
+                    found: h.dtype.name().into(),
+                    expected: "an integer dtype (column index, -1 for background)",
+                },
+            )
+            .into());
         }
         check_column_shape(file, &h.shape)?;
         let m = tax.len() as i128;
@@ -79,13 +120,23 @@ impl Labels {
                 -1 => NONE,
                 v if (0..m).contains(&v) => v as u32,
                 v => {
-                    errors.push(Error::new(file, Location::row(r as u64), ErrorKind::LabelIndex { found: v, nodes: m as u64 }));
+                    errors.push(Error::new(
+                        file,
+                        Location::row(r as u64),
+                        ErrorKind::LabelIndex {
+                            found: v,
+                            nodes: m as u64,
+                        },
+                    ));
                     NONE
                 }
             })
             .collect();
         errors.finish(file)?;
-        Ok(Labels { file: file.to_string(), nodes })
+        Ok(Labels {
+            file: file.to_string(),
+            nodes,
+        })
     }
 }
 
@@ -93,7 +144,10 @@ impl Labels {
 /// header has a single column, turn each empty line (outside quotes) into `""`
 /// so every row is kept and line numbers stay as they are.
 fn quote_blank_lines(bytes: &[u8]) -> Option<Vec<u8>> {
-    let header_end = bytes.iter().position(|&b| b == b'\n').unwrap_or(bytes.len());
+    let header_end = bytes
+        .iter()
+        .position(|&b| b == b'\n')
+        .unwrap_or(bytes.len());
     if bytes[..header_end].contains(&b',') {
         return None;
     }
@@ -120,7 +174,15 @@ fn quote_blank_lines(bytes: &[u8]) -> Option<Vec<u8>> {
 fn check_column_shape(file: &str, shape: &[u64]) -> Result<()> {
     match shape {
         [_] | [_, 1] => Ok(()),
-        _ => Err(Error::new(file, Location::default(), ErrorKind::Shape { found: npy::shape_text(shape), expected: "(rows,) with one value per row".into() }).into()),
+        _ => Err(Error::new(
+            file,
+            Location::default(),
+            ErrorKind::Shape {
+                found: npy::shape_text(shape),
+                expected: "(rows,) with one value per row".into(),
+            },
+        )
+        .into()),
     }
 }
 
@@ -136,7 +198,15 @@ impl Objectness {
         let array = npy::read_array(bytes).map_err(|k| Error::new(file, Location::default(), k))?;
         let h = &array.header;
         if !h.dtype.scalar.is_float() {
-            return Err(Error::new(file, Location::default(), ErrorKind::Dtype { found: h.dtype.name().into(), expected: "float16, float32 or float64 probabilities" }).into());
+            return Err(Error::new(
+                file,
+                Location::default(),
+                ErrorKind::Dtype {
+                    found: h.dtype.name().into(),
+                    expected: "float16, float32 or float64 probabilities",
+                },
+            )
+            .into());
         }
         check_column_shape(file, &h.shape)?;
         let mut raw = Vec::new();
@@ -148,13 +218,22 @@ impl Objectness {
             .map(|(r, &v)| {
                 let v32 = v as f32;
                 if !(0.0..=1.0).contains(&v32) {
-                    errors.push(Error::new(file, Location::row(r as u64), ErrorKind::NotProbability { found: v.to_string() }));
+                    errors.push(Error::new(
+                        file,
+                        Location::row(r as u64),
+                        ErrorKind::NotProbability {
+                            found: v.to_string(),
+                        },
+                    ));
                 }
                 v32
             })
             .collect();
         errors.finish(file)?;
-        Ok(Objectness { file: file.to_string(), values })
+        Ok(Objectness {
+            file: file.to_string(),
+            values,
+        })
     }
 }
 
@@ -175,15 +254,38 @@ pub struct Batch {
 
 impl Batch {
     /// Join paths, labels and objectness, checking they describe the same rows.
-    pub fn new(tax: &Taxonomy, logits_file: &str, ingested: Ingested, temperatures: Temperatures, labels: Labels, objectness: Option<Objectness>) -> Result<Self> {
+    pub fn new(
+        tax: &Taxonomy,
+        logits_file: &str,
+        ingested: Ingested,
+        temperatures: Temperatures,
+        labels: Labels,
+        objectness: Option<Objectness>,
+    ) -> Result<Self> {
         let n = ingested.paths.len() as u64;
         let mut errors = Vec::new();
         if labels.nodes.len() as u64 != n {
-            errors.push(Error::new(&labels.file, Location::default(), ErrorKind::RowCount { found: labels.nodes.len() as u64, other: logits_file.to_string(), expected: n }));
+            errors.push(Error::new(
+                &labels.file,
+                Location::default(),
+                ErrorKind::RowCount {
+                    found: labels.nodes.len() as u64,
+                    other: logits_file.to_string(),
+                    expected: n,
+                },
+            ));
         }
         if let Some(o) = &objectness {
             if o.values.len() as u64 != n {
-                errors.push(Error::new(&o.file, Location::default(), ErrorKind::RowCount { found: o.values.len() as u64, other: logits_file.to_string(), expected: n }));
+                errors.push(Error::new(
+                    &o.file,
+                    Location::default(),
+                    ErrorKind::RowCount {
+                        found: o.values.len() as u64,
+                        other: logits_file.to_string(),
+                        expected: n,
+                    },
+                ));
             }
         }
         if !errors.is_empty() {
@@ -202,17 +304,45 @@ impl Batch {
             }
         }
         let fingerprint = h.finalize().to_hex().to_string();
-        Ok(Self::from_parts(tax, ingested.paths, labels.nodes, objectness.map(|o| o.values), temperatures, fingerprint))
+        Ok(Self::from_parts(
+            tax,
+            ingested.paths,
+            labels.nodes,
+            objectness.map(|o| o.values),
+            temperatures,
+            fingerprint,
+        ))
     }
 
     /// Assemble from already validated parts (lengths must agree).
-    pub fn from_parts(tax: &Taxonomy, paths: Paths, labels: Vec<u32>, objectness: Option<Vec<f32>>, temperatures: Temperatures, fingerprint: String) -> Self {
+    pub fn from_parts(
+        tax: &Taxonomy,
+        paths: Paths,
+        labels: Vec<u32>,
+        objectness: Option<Vec<f32>>,
+        temperatures: Temperatures,
+        fingerprint: String,
+    ) -> Self {
         let (agree, label_depth) = labels
             .iter()
             .zip(paths.leaves())
-            .map(|(&g, &leaf)| if g == NONE { (0, 0) } else { (tax.lca_depth(leaf, g) as u8, tax.depth(g) as u8) })
+            .map(|(&g, &leaf)| {
+                if g == NONE {
+                    (0, 0)
+                } else {
+                    (tax.lca_depth(leaf, g) as u8, tax.depth(g) as u8)
+                }
+            })
             .unzip();
-        Batch { paths, labels, objectness, agree, label_depth, temperatures, fingerprint }
+        Batch {
+            paths,
+            labels,
+            objectness,
+            agree,
+            label_depth,
+            temperatures,
+            fingerprint,
+        }
     }
 
     pub fn len(&self) -> usize {
@@ -253,7 +383,11 @@ impl Batch {
     /// Share of labelled rows whose label is an internal node.
     pub fn coarse_share(&self, tax: &Taxonomy) -> Option<f64> {
         let labelled = self.labels.iter().filter(|&&g| g != NONE).count();
-        let coarse = self.labels.iter().filter(|&&g| g != NONE && !tax.is_leaf(g)).count();
+        let coarse = self
+            .labels
+            .iter()
+            .filter(|&&g| g != NONE && !tax.is_leaf(g))
+            .count();
         (labelled > 0).then(|| coarse as f64 / labelled as f64)
     }
     pub fn background_rows(&self) -> usize {

@@ -52,7 +52,13 @@ impl Running {
 }
 
 /// Compute the curve. Points come in descending threshold order; the first is t = 1.
-pub fn exact_curve(tax: &Taxonomy, batch: &Batch, rule: Rule, object_threshold: f64, policy: Policy) -> Vec<CurvePoint> {
+pub fn exact_curve(
+    tax: &Taxonomy,
+    batch: &Batch,
+    rule: Rule,
+    object_threshold: f64,
+    policy: Policy,
+) -> Vec<CurvePoint> {
     // (breakpoint m, row, depth reached at m); a row's equal consecutive m_d merge into the
     // deepest d so each event moves its row strictly deeper.
     let mut events: Vec<(f64, u32, u8)> = Vec::new();
@@ -85,7 +91,11 @@ pub fn exact_curve(tax: &Taxonomy, batch: &Batch, rule: Rule, object_threshold: 
     }
     events.sort_unstable_by(|a, b| b.0.total_cmp(&a.0));
     let point = |t: f64, run: &Running| {
-        let (c, u, w) = (run.correct.max(0) as u64, run.unverifiable.max(0) as u64, run.wrong.max(0) as u64);
+        let (c, u, w) = (
+            run.correct.max(0) as u64,
+            run.unverifiable.max(0) as u64,
+            run.wrong.max(0) as u64,
+        );
         let n = predicting as f64;
         CurvePoint {
             threshold: t,
@@ -105,7 +115,11 @@ pub fn exact_curve(tax: &Taxonomy, batch: &Batch, rule: Rule, object_threshold: 
         let (r, d) = (r as usize, d as usize);
         let leaf = batch.paths().leaf(r);
         let old = depth_now[r] as usize;
-        run.add(outcome_at(batch, r, old), tax.gain(tax.ancestor(leaf, old)), -1);
+        run.add(
+            outcome_at(batch, r, old),
+            tax.gain(tax.ancestor(leaf, old)),
+            -1,
+        );
         run.add(outcome_at(batch, r, d), tax.gain(tax.ancestor(leaf, d)), 1);
         depth_now[r] = d as u8;
     };

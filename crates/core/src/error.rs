@@ -15,16 +15,28 @@ pub struct Location {
 
 impl Location {
     pub fn line(line: u64) -> Self {
-        Location { line: Some(line), ..Self::default() }
+        Location {
+            line: Some(line),
+            ..Self::default()
+        }
     }
     pub fn row(row: u64) -> Self {
-        Location { row: Some(row), ..Self::default() }
+        Location {
+            row: Some(row),
+            ..Self::default()
+        }
     }
     pub fn entry(entry: u64) -> Self {
-        Location { entry: Some(entry), ..Self::default() }
+        Location {
+            entry: Some(entry),
+            ..Self::default()
+        }
     }
     pub fn byte(byte: u64) -> Self {
-        Location { byte: Some(byte), ..Self::default() }
+        Location {
+            byte: Some(byte),
+            ..Self::default()
+        }
     }
     pub fn column(mut self, column: impl Into<String>) -> Self {
         self.column = Some(column.into());
@@ -61,7 +73,10 @@ pub enum ErrorKind {
     #[error("malformed JSON: {0}")]
     Json(String),
     #[error("expected a header with a `{expected}` column, found columns {found}")]
-    MissingColumn { expected: &'static str, found: String },
+    MissingColumn {
+        expected: &'static str,
+        found: String,
+    },
     #[error("expected a value, found an empty {what}")]
     Empty { what: &'static str },
     #[error("the taxonomy is empty: expected at least one node row")]
@@ -81,12 +96,17 @@ pub enum ErrorKind {
     #[error("bad .npy header: {0}")]
     NpyHeader(String),
     #[error("dtype `{found}`: expected {expected}")]
-    Dtype { found: String, expected: &'static str },
+    Dtype {
+        found: String,
+        expected: &'static str,
+    },
     #[error("shape {found}: expected {expected}")]
     Shape { found: String, expected: String },
     #[error("{found} columns, but the taxonomy has {expected} nodes")]
     ColumnCount { found: u64, expected: u64 },
-    #[error("truncated: expected {expected} bytes of data for the shape in the header, found {found}")]
+    #[error(
+        "truncated: expected {expected} bytes of data for the shape in the header, found {found}"
+    )]
     Truncated { expected: u64, found: u64 },
     #[error("{found} bytes of data after the last row: expected the file to end there")]
     TrailingBytes { found: u64 },
@@ -99,15 +119,28 @@ pub enum ErrorKind {
     #[error("label index {found}: expected -1 (background) or a column index 0..{nodes}")]
     LabelIndex { found: i128, nodes: u64 },
     #[error("{found} rows, but {other} has {expected} rows")]
-    RowCount { found: u64, other: String, expected: u64 },
+    RowCount {
+        found: u64,
+        other: String,
+        expected: u64,
+    },
     #[error("{what} {found}: expected a number in [0, 1]")]
     ThresholdRange { what: String, found: String },
     #[error("temperature {found}: expected a finite number above 0")]
     TemperatureRange { found: String },
     #[error("{what}: expected {expected}, found `{found}`")]
-    Invalid { what: String, expected: String, found: String },
+    Invalid {
+        what: String,
+        expected: String,
+        found: String,
+    },
     #[error("this profile was made for another taxonomy (fingerprint {found}, {found_nodes} nodes); the loaded taxonomy has fingerprint {expected} ({expected_nodes} nodes)")]
-    ProfileTaxonomy { expected: String, expected_nodes: usize, found: String, found_nodes: usize },
+    ProfileTaxonomy {
+        expected: String,
+        expected_nodes: usize,
+        found: String,
+        found_nodes: usize,
+    },
     #[error("{0} more problems not shown")]
     More(u64),
 }
@@ -122,7 +155,11 @@ pub struct Error {
 
 impl Error {
     pub fn new(file: impl Into<String>, at: Location, kind: ErrorKind) -> Self {
-        Error { file: file.into(), at, kind }
+        Error {
+            file: file.into(),
+            at,
+            kind,
+        }
     }
 }
 
@@ -191,7 +228,11 @@ impl Collector {
         }
         let mut errors = std::mem::take(&mut self.errors);
         if self.more > 0 {
-            errors.push(Error::new(file, Location::default(), ErrorKind::More(self.more)));
+            errors.push(Error::new(
+                file,
+                Location::default(),
+                ErrorKind::More(self.more),
+            ));
             self.more = 0;
         }
         Err(Errors(errors))

@@ -100,7 +100,13 @@ pub fn precision(policy: Policy, correct: u64, unverifiable: u64, wrong: u64) ->
 ///
 /// [`Thresholds::resolve`]: crate::settings::Thresholds::resolve
 #[inline]
-pub fn stop_depth(tax: &Taxonomy, batch: &Batch, rule: Rule, thresholds: &[f64], r: usize) -> Option<usize> {
+pub fn stop_depth(
+    tax: &Taxonomy,
+    batch: &Batch,
+    rule: Rule,
+    thresholds: &[f64],
+    r: usize,
+) -> Option<usize> {
     let p_root = batch.root_probability(r);
     if batch.has_objectness() && p_root < thresholds[tax.root() as usize] {
         return None;
@@ -210,12 +216,19 @@ pub fn evaluate(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Metrics {
         precision: precision(settings.policy, correct, unverifiable, wrong),
         specificity: ratio(gain_sum, n),
         reward: ratio(reward_sum, n),
-        stop_share: stop_count.iter().map(|c| ratio((c.correct + c.unverifiable + c.wrong) as f64, n)).collect(),
+        stop_share: stop_count
+            .iter()
+            .map(|c| ratio((c.correct + c.unverifiable + c.wrong) as f64, n))
+            .collect(),
         stop_outcome: stop_count
             .iter()
             .map(|c| {
                 let share = |k: u64| ratio(k as f64, n);
-                OutcomeShare { correct: share(c.correct), unverifiable: share(c.unverifiable), wrong: share(c.wrong) }
+                OutcomeShare {
+                    correct: share(c.correct),
+                    unverifiable: share(c.unverifiable),
+                    wrong: share(c.wrong),
+                }
             })
             .collect(),
         stop_count,
@@ -252,7 +265,13 @@ pub struct RowDecode {
     pub path: Vec<Step>,
 }
 
-pub fn decode_row(tax: &Taxonomy, batch: &Batch, settings: &Settings, thresholds: &[f64], r: usize) -> RowDecode {
+pub fn decode_row(
+    tax: &Taxonomy,
+    batch: &Batch,
+    settings: &Settings,
+    thresholds: &[f64],
+    r: usize,
+) -> RowDecode {
     let leaf = batch.paths().leaf(r);
     let cond = batch.paths().cond(r);
     let p_root = batch.root_probability(r);
@@ -261,7 +280,11 @@ pub fn decode_row(tax: &Taxonomy, batch: &Batch, settings: &Settings, thresholds
         .map(|d| {
             let c = cond[d - 1] as f64;
             p *= c;
-            Step { node: tax.ancestor(leaf, d), conditional: c, cumulative: p }
+            Step {
+                node: tax.ancestor(leaf, d),
+                conditional: c,
+                cumulative: p,
+            }
         })
         .collect();
     match stop_depth(tax, batch, settings.rule, thresholds, r) {
@@ -269,7 +292,11 @@ pub fn decode_row(tax: &Taxonomy, batch: &Batch, settings: &Settings, thresholds
             predicted: None,
             depth: 0,
             probability: p_root,
-            outcome: if batch.label(r) == NONE { Outcome::Rejected } else { Outcome::Abstained },
+            outcome: if batch.label(r) == NONE {
+                Outcome::Rejected
+            } else {
+                Outcome::Abstained
+            },
             path,
         },
         Some(s) => {
@@ -278,7 +305,13 @@ pub fn decode_row(tax: &Taxonomy, batch: &Batch, settings: &Settings, thresholds
                 (_, Rule::Cumulative) => path[s - 1].cumulative,
                 (_, Rule::Conditional) => path[s - 1].conditional,
             };
-            RowDecode { predicted: Some(tax.ancestor(leaf, s)), depth: s, probability, outcome: outcome_at(batch, r, s), path }
+            RowDecode {
+                predicted: Some(tax.ancestor(leaf, s)),
+                depth: s,
+                probability,
+                outcome: outcome_at(batch, r, s),
+                path,
+            }
         }
     }
 }

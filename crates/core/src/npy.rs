@@ -118,7 +118,10 @@ impl Dtype {
                     a[..n].copy_from_slice(c);
                 }
                 let raw = u64::from_le_bytes(a);
-                let signed = matches!(self.scalar, Scalar::I8 | Scalar::I16 | Scalar::I32 | Scalar::I64);
+                let signed = matches!(
+                    self.scalar,
+                    Scalar::I8 | Scalar::I16 | Scalar::I32 | Scalar::I64
+                );
                 if signed {
                     let shift = 64 - 8 * n as u32;
                     (((raw << shift) as i64) >> shift) as i128
@@ -147,7 +150,8 @@ impl Header {
     }
     /// Bytes of data the shape promises.
     pub fn data_len(&self) -> u64 {
-        self.elements().saturating_mul(self.dtype.scalar.size() as u64)
+        self.elements()
+            .saturating_mul(self.dtype.scalar.size() as u64)
     }
     pub fn shape_text(&self) -> String {
         shape_text(&self.shape)
@@ -157,7 +161,14 @@ impl Header {
 pub fn shape_text(shape: &[u64]) -> String {
     match shape {
         [one] => format!("({one},)"),
-        _ => format!("({})", shape.iter().map(u64::to_string).collect::<Vec<_>>().join(", ")),
+        _ => format!(
+            "({})",
+            shape
+                .iter()
+                .map(u64::to_string)
+                .collect::<Vec<_>>()
+                .join(", ")
+        ),
     }
 }
 
@@ -166,8 +177,24 @@ pub fn parse_header(bytes: &[u8]) -> Result<Option<Header>, ErrorKind> {
     const MAGIC: &[u8] = b"\x93NUMPY";
     let have = bytes.len().min(MAGIC.len());
     if bytes[..have] != MAGIC[..have] {
-        let shown: String = bytes.iter().take(6).map(|b| if b.is_ascii_graphic() { (*b as char).to_string() } else { format!("\\x{b:02x}") }).collect();
-        return Err(ErrorKind::NpyMagic { found: if shown.is_empty() { "an empty file".into() } else { shown } });
+        let shown: String = bytes
+            .iter()
+            .take(6)
+            .map(|b| {
+                if b.is_ascii_graphic() {
+                    (*b as char).to_string()
+                } else {
+                    format!("\\x{b:02x}")
+                }
+            })
+            .collect();
+        return Err(ErrorKind::NpyMagic {
+            found: if shown.is_empty() {
+                "an empty file".into()
+            } else {
+                shown
+            },
+        });
     }
     if bytes.len() < 10 {
         return Ok(None);
@@ -179,7 +206,10 @@ pub fn parse_header(bytes: &[u8]) -> Result<Option<Header>, ErrorKind> {
             if bytes.len() < 12 {
                 return Ok(None);
             }
-            (u32::from_le_bytes([bytes[8], bytes[9], bytes[10], bytes[11]]) as usize, 12)
+            (
+                u32::from_le_bytes([bytes[8], bytes[9], bytes[10], bytes[11]]) as usize,
+                12,
+            )
         }
         _ => return Err(ErrorKind::NpyVersion { major, minor }),
     };
@@ -187,7 +217,9 @@ pub fn parse_header(bytes: &[u8]) -> Result<Option<Header>, ErrorKind> {
         return Err(ErrorKind::NpyVersion { major, minor });
     }
     if len > 1 << 24 {
-        return Err(ErrorKind::NpyHeader(format!("header length {len} bytes is implausible")));
+        return Err(ErrorKind::NpyHeader(format!(
+            "header length {len} bytes is implausible"
+        )));
     }
     if bytes.len() < start + len {
         return Ok(None);
@@ -195,13 +227,21 @@ pub fn parse_header(bytes: &[u8]) -> Result<Option<Header>, ErrorKind> {
     let text = std::str::from_utf8(&bytes[start..start + len])
         .map_err(|_| ErrorKind::NpyHeader("the header text is not valid UTF-8".into()))?;
     let dict = parse_dict(text)?;
-    Ok(Some(Header { dtype: dict.0, fortran_order: dict.1, shape: dict.2, data_offset: start + len }))
+    Ok(Some(Header {
+        dtype: dict.0,
+        fortran_order: dict.1,
+        shape: dict.2,
+        data_offset: start + len,
+    }))
 }
 
 /// The header is a Python dict literal: `{'descr': '<f4', 'fortran_order': False, 'shape': (3, 4), }`.
 fn parse_dict(text: &str) -> Result<(Dtype, bool, Vec<u64>), ErrorKind> {
     let bad = |what: &str| ErrorKind::NpyHeader(format!("{what} in `{}`", text.trim_end()));
-    let mut p = Lexer { s: text.as_bytes(), i: 0 };
+    let mut p = Lexer {
+        s: text.as_bytes(),
+        i: 0,
+    };
     p.skip_ws();
     if !p.eat(b'{') {
         return Err(bad("expected a dict starting with `{`"));
@@ -222,7 +262,10 @@ fn parse_dict(text: &str) -> Result<(Dtype, bool, Vec<u64>), ErrorKind> {
             "descr" => {
                 let Some(d) = p.string() else {
                     if p.s.get(p.i) == Some(&b'[') {
-                        return Err(ErrorKind::Dtype { found: "a structured dtype".into(), expected: "a plain numeric dtype" });
+                        return Err(ErrorKind::Dtype {
+                            found: "a structured dtype".into(),
+                            expected: "a plain numeric dtype",
+                        });
                     }
                     return Err(bad("expected a quoted dtype string for 'descr'"));
                 };
@@ -247,7 +290,10 @@ fn parse_dict(text: &str) -> Result<(Dtype, bool, Vec<u64>), ErrorKind> {
                     if p.eat(b')') {
                         break;
                     }
-                    dims.push(p.int().ok_or_else(|| bad("expected a whole number in 'shape'"))?);
+                    dims.push(
+                        p.int()
+                            .ok_or_else(|| bad("expected a whole number in 'shape'"))?,
+                    );
                     p.skip_ws();
                     if !p.eat(b',') {
                         p.skip_ws();
@@ -277,7 +323,10 @@ fn parse_dict(text: &str) -> Result<(Dtype, bool, Vec<u64>), ErrorKind> {
 }
 
 fn parse_descr(descr: &str) -> Result<Dtype, ErrorKind> {
-    let unknown = || ErrorKind::Dtype { found: descr.to_string(), expected: "a numeric dtype such as '<f4'" };
+    let unknown = || ErrorKind::Dtype {
+        found: descr.to_string(),
+        expected: "a numeric dtype such as '<f4'",
+    };
     let mut chars = descr.chars();
     let (order, rest) = match chars.next() {
         Some(c @ ('<' | '>' | '|' | '=')) => (c, chars.as_str()),
@@ -298,7 +347,10 @@ fn parse_descr(descr: &str) -> Result<Dtype, ErrorKind> {
         "b1" | "?" => Scalar::Bool,
         _ => return Err(unknown()),
     };
-    Ok(Dtype { scalar, big_endian: order == '>' && scalar.size() > 1 })
+    Ok(Dtype {
+        scalar,
+        big_endian: order == '>' && scalar.size() > 1,
+    })
 }
 
 struct Lexer<'a> {
@@ -343,11 +395,41 @@ impl Lexer<'_> {
         while self.i < self.s.len() && self.s[self.i].is_ascii_digit() {
             self.i += 1;
         }
-        let n = std::str::from_utf8(&self.s[start..self.i]).ok()?.parse().ok()?;
+        let n = std::str::from_utf8(&self.s[start..self.i])
+            .ok()?
+            .parse()
+            .ok()?;
         // Python 2 era files may write `3L`.
         self.eat(b'L');
         Some(n)
     }
+}
+
+/// The bytes before the data of a `.npy` file, as NumPy writes them: magic, version, header
+/// length, then the dict literal padded with spaces and ending in `\n` so the data start at a
+/// multiple of 64 bytes. Format 1.0 when the header fits its 16-bit length, else 2.0.
+pub fn header_bytes(descr: &str, shape: &[u64], fortran_order: bool) -> Vec<u8> {
+    let order = if fortran_order { "True" } else { "False" };
+    let dict = format!(
+        "{{'descr': '{descr}', 'fortran_order': {order}, 'shape': {}, }}",
+        shape_text(shape)
+    );
+    let v1 = dict.len() + 11 <= u16::MAX as usize;
+    let pre = if v1 { 10 } else { 12 };
+    let len = (dict.len() + 1 + pre).div_ceil(64) * 64 - pre;
+    let mut out = Vec::with_capacity(pre + len);
+    out.extend_from_slice(b"\x93NUMPY");
+    if v1 {
+        out.extend_from_slice(&[1, 0]);
+        out.extend_from_slice(&(len as u16).to_le_bytes());
+    } else {
+        out.extend_from_slice(&[2, 0]);
+        out.extend_from_slice(&(len as u32).to_le_bytes());
+    }
+    out.extend_from_slice(dict.as_bytes());
+    out.resize(pre + len - 1, b' ');
+    out.push(b'\n');
+    out
 }
 
 /// A whole small array (labels, objectness) read at once.
@@ -361,7 +443,12 @@ pub struct Array<'a> {
 pub fn read_array(bytes: &[u8]) -> Result<Array<'_>, ErrorKind> {
     let header = match parse_header(bytes)? {
         Some(h) => h,
-        None => return Err(ErrorKind::NpyHeader(format!("the file ends inside the header ({} bytes)", bytes.len()))),
+        None => {
+            return Err(ErrorKind::NpyHeader(format!(
+                "the file ends inside the header ({} bytes)",
+                bytes.len()
+            )))
+        }
     };
     let found = (bytes.len() - header.data_offset) as u64;
     let expected = header.data_len();
@@ -369,7 +456,9 @@ pub fn read_array(bytes: &[u8]) -> Result<Array<'_>, ErrorKind> {
         return Err(ErrorKind::Truncated { expected, found });
     }
     if found > expected {
-        return Err(ErrorKind::TrailingBytes { found: found - expected });
+        return Err(ErrorKind::TrailingBytes {
+            found: found - expected,
+        });
     }
     let data = &bytes[header.data_offset..];
     Ok(Array { header, data })
@@ -379,25 +468,17 @@ pub fn read_array(bytes: &[u8]) -> Result<Array<'_>, ErrorKind> {
 mod tests {
     use super::*;
 
-    /// Build a header the way numpy's `write_array_header_1_0` does (from memory of the format
-    /// spec in numpy/lib/format.py: total size padded to a multiple of 64, ending in `\n`).
-    pub(crate) fn header(descr: &str, shape: &str, version: u8) -> Vec<u8> {
-        let dict = format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape}, }}");
-        let pre = if version == 1 { 10 } else { 12 };
-        let mut len = dict.len() + 1;
-        while (pre + len) % 64 != 0 {
-            len += 1;
-        }
-        let mut out = b"\x93NUMPY".to_vec();
-        out.push(version);
-        out.push(0);
+    /// A header in format `version` (2.0 and 3.0 differ from 1.0 only in the length field).
+    fn header(descr: &str, shape: &[u64], version: u8) -> Vec<u8> {
+        let h = header_bytes(descr, shape, false);
         if version == 1 {
-            out.extend((len as u16).to_le_bytes());
-        } else {
-            out.extend((len as u32).to_le_bytes());
+            return h;
         }
-        out.extend(dict.as_bytes());
-        out.extend(std::iter::repeat_n(b' ', len - dict.len() - 1));
+        let len = u16::from_le_bytes([h[8], h[9]]) as u32;
+        let mut out = b"\x93NUMPY".to_vec();
+        out.extend([version, 0]);
+        out.extend((len - 2).to_le_bytes());
+        out.extend(&h[10..h.len() - 3]);
         out.push(b'\n');
         out
     }
@@ -405,45 +486,72 @@ mod tests {
     #[test]
     fn parses_each_version() {
         for v in [1, 2, 3] {
-            let h = header("<f2", "(3, 4)", v);
+            let h = header("<f2", &[3, 4], v);
             let parsed = parse_header(&h).expect("valid").expect("complete");
             assert_eq!(parsed.shape, vec![3, 4]);
-            assert_eq!(parsed.dtype, Dtype { scalar: Scalar::F16, big_endian: false });
-            assert_eq!(parsed.data_offset % 64, 0);
+            assert_eq!(
+                parsed.dtype,
+                Dtype {
+                    scalar: Scalar::F16,
+                    big_endian: false
+                }
+            );
+            assert_eq!(parsed.data_offset % 64, 0, "version {v}");
         }
     }
 
     #[test]
     fn partial_header_asks_for_more() {
-        let h = header("<f4", "(3,)", 1);
+        let h = header("<f4", &[3], 1);
         assert_eq!(parse_header(&h[..20]), Ok(None));
         assert_eq!(parse_header(&h[..4]), Ok(None));
     }
 
     #[test]
     fn rejects_bad_magic_and_version() {
-        assert!(matches!(parse_header(b"PK\x03\x04xxxxxxxx"), Err(ErrorKind::NpyMagic { .. })));
-        let mut h = header("<f4", "(3,)", 1);
+        assert!(matches!(
+            parse_header(b"PK\x03\x04xxxxxxxx"),
+            Err(ErrorKind::NpyMagic { .. })
+        ));
+        let mut h = header("<f4", &[3], 1);
         h[6] = 4;
-        assert_eq!(parse_header(&h), Err(ErrorKind::NpyVersion { major: 4, minor: 0 }));
+        assert_eq!(
+            parse_header(&h),
+            Err(ErrorKind::NpyVersion { major: 4, minor: 0 })
+        );
     }
 
     #[test]
     fn big_endian_values_decode() {
-        let d = Dtype { scalar: Scalar::F32, big_endian: true };
+        let d = Dtype {
+            scalar: Scalar::F32,
+            big_endian: true,
+        };
         let mut out = Vec::new();
         d.decode_into(&1.5f32.to_be_bytes(), &mut out);
         assert_eq!(out, vec![1.5]);
-        let d = Dtype { scalar: Scalar::I16, big_endian: true };
+        let d = Dtype {
+            scalar: Scalar::I16,
+            big_endian: true,
+        };
         assert_eq!(d.decode_ints(&(-2i16).to_be_bytes()), vec![-2]);
-        let d = Dtype { scalar: Scalar::I32, big_endian: false };
+        let d = Dtype {
+            scalar: Scalar::I32,
+            big_endian: false,
+        };
         assert_eq!(d.decode_ints(&(-1i32).to_le_bytes()), vec![-1]);
     }
 
     #[test]
     fn descr_spellings() {
         assert_eq!(parse_descr("|u1").map(|d| d.scalar), Ok(Scalar::U8));
-        assert_eq!(parse_descr(">f8"), Ok(Dtype { scalar: Scalar::F64, big_endian: true }));
+        assert_eq!(
+            parse_descr(">f8"),
+            Ok(Dtype {
+                scalar: Scalar::F64,
+                big_endian: true
+            })
+        );
         assert!(parse_descr("<U10").is_err());
         assert!(parse_descr("<c16").is_err());
     }

@@ -18,7 +18,11 @@ pub struct Paths {
 
 impl Paths {
     pub fn new(width: usize) -> Self {
-        Paths { width, leaf: Vec::new(), cond: Vec::new() }
+        Paths {
+            width,
+            leaf: Vec::new(),
+            cond: Vec::new(),
+        }
     }
     pub fn len(&self) -> usize {
         self.leaf.len()
@@ -60,7 +64,13 @@ impl Paths {
 /// Conditionals are computed in f64 as exp(z − max z) / Σ exp(z − max z) with z = logit / T_d,
 /// the child with the highest probability is taken (ties: the lowest column), and the value is
 /// stored as f32.
-pub fn descend(tax: &Taxonomy, temps: &[f64], logits: &[f64], cond: &mut [f32], scratch: &mut Vec<f64>) -> u32 {
+pub fn descend(
+    tax: &Taxonomy,
+    temps: &[f64],
+    logits: &[f64],
+    cond: &mut [f32],
+    scratch: &mut Vec<f64>,
+) -> u32 {
     let mut v = tax.root();
     let mut d = 0;
     loop {
@@ -169,7 +179,9 @@ impl LogitsReader {
         let mut data = chunk;
         if self.header.is_none() {
             self.head.extend_from_slice(chunk);
-            let Some(header) = npy::parse_header(&self.head).map_err(|k| self.fail(Location::byte(0), k))? else {
+            let Some(header) =
+                npy::parse_header(&self.head).map_err(|k| self.fail(Location::byte(0), k))?
+            else {
                 return Ok(());
             };
             self.check_header(tax, &header)?;
@@ -204,22 +216,39 @@ impl LogitsReader {
 
     fn check_header(&self, tax: &Taxonomy, h: &Header) -> Result<()> {
         if !h.dtype.scalar.is_float() {
-            return Err(self.fail(Location::default(), ErrorKind::Dtype { found: h.dtype.name().into(), expected: "float16, float32 or float64 logits" }));
+            return Err(self.fail(
+                Location::default(),
+                ErrorKind::Dtype {
+                    found: h.dtype.name().into(),
+                    expected: "float16, float32 or float64 logits",
+                },
+            ));
         }
         if h.shape.len() != 2 {
             return Err(self.fail(
                 Location::default(),
-                ErrorKind::Shape { found: h.shape_text(), expected: format!("(rows, {}) with one column per taxonomy node", tax.len()) },
+                ErrorKind::Shape {
+                    found: h.shape_text(),
+                    expected: format!("(rows, {}) with one column per taxonomy node", tax.len()),
+                },
             ));
         }
         if h.shape[1] != tax.len() as u64 {
-            return Err(self.fail(Location::default(), ErrorKind::ColumnCount { found: h.shape[1], expected: tax.len() as u64 }));
+            return Err(self.fail(
+                Location::default(),
+                ErrorKind::ColumnCount {
+                    found: h.shape[1],
+                    expected: tax.len() as u64,
+                },
+            ));
         }
         Ok(())
     }
 
     fn take_data(&mut self, tax: &Taxonomy, mut data: &[u8]) {
-        let Some(header) = self.header.as_ref() else { return };
+        let Some(header) = self.header.as_ref() else {
+            return;
+        };
         let expected = header.data_len();
         self.data_seen += data.len() as u64;
         if let Some(buf) = self.fortran.as_mut() {
@@ -267,16 +296,30 @@ impl LogitsReader {
             for (c, v) in self.values.iter().enumerate() {
                 if !v.is_finite() {
                     let at = Location::row(r).column(format!("{c} (`{}`)", tax.id(c as u32)));
-                    self.errors.push(Error::new(&self.file, at, ErrorKind::NonFinite { found: v.to_string() }));
+                    self.errors.push(Error::new(
+                        &self.file,
+                        at,
+                        ErrorKind::NonFinite {
+                            found: v.to_string(),
+                        },
+                    ));
                 }
             }
             self.paths.leaf.push(tax.root());
-            self.paths.cond.resize(self.paths.cond.len() + self.paths.width, 0.0);
+            self.paths
+                .cond
+                .resize(self.paths.cond.len() + self.paths.width, 0.0);
             return;
         }
         let start = self.paths.cond.len();
         self.paths.cond.resize(start + self.paths.width, 0.0);
-        let leaf = descend(tax, &self.temps, &self.values, &mut self.paths.cond[start..], &mut self.scratch);
+        let leaf = descend(
+            tax,
+            &self.temps,
+            &self.values,
+            &mut self.paths.cond[start..],
+            &mut self.scratch,
+        );
         self.paths.leaf.push(leaf);
     }
 
@@ -284,9 +327,14 @@ impl LogitsReader {
     pub fn finish(mut self, tax: &Taxonomy) -> Result<Ingested> {
         let Some(header) = self.header.clone() else {
             let kind = if self.head.is_empty() {
-                ErrorKind::NpyMagic { found: "an empty file".into() }
+                ErrorKind::NpyMagic {
+                    found: "an empty file".into(),
+                }
             } else {
-                ErrorKind::NpyHeader(format!("the file ends inside the header ({} bytes)", self.head.len()))
+                ErrorKind::NpyHeader(format!(
+                    "the file ends inside the header ({} bytes)",
+                    self.head.len()
+                ))
             };
             return Err(self.fail(Location::default(), kind));
         };
@@ -295,11 +343,19 @@ impl LogitsReader {
             let rows = self.rows_done;
             return Err(self.fail(
                 Location::row(rows),
-                ErrorKind::Truncated { expected, found: self.data_seen },
+                ErrorKind::Truncated {
+                    expected,
+                    found: self.data_seen,
+                },
             ));
         }
         if self.data_seen > expected {
-            return Err(self.fail(Location::byte(header.data_offset as u64 + expected), ErrorKind::TrailingBytes { found: self.data_seen - expected }));
+            return Err(self.fail(
+                Location::byte(header.data_offset as u64 + expected),
+                ErrorKind::TrailingBytes {
+                    found: self.data_seen - expected,
+                },
+            ));
         }
         if let Some(buf) = self.fortran.take() {
             // Column-major: element (r, c) sits at (c * rows + r) * size.
@@ -317,12 +373,21 @@ impl LogitsReader {
         }
         let file = self.file.clone();
         self.errors.finish(&file)?;
-        Ok(Ingested { paths: self.paths, digest: self.hasher.finalize().to_hex().to_string(), header })
+        Ok(Ingested {
+            paths: self.paths,
+            digest: self.hasher.finalize().to_hex().to_string(),
+            header,
+        })
     }
 }
 
 /// Read a whole logits file held in memory (tests, small files).
-pub fn ingest_bytes(file: &str, tax: &Taxonomy, temps: &Temperatures, bytes: &[u8]) -> Result<Ingested> {
+pub fn ingest_bytes(
+    file: &str,
+    tax: &Taxonomy,
+    temps: &Temperatures,
+    bytes: &[u8],
+) -> Result<Ingested> {
     let mut reader = LogitsReader::new(file, tax, temps);
     reader.feed(tax, bytes)?;
     reader.finish(tax)

@@ -65,18 +65,35 @@ pub struct Profile {
 
 impl Profile {
     /// A profile of `settings` for `tax`, with the metrics they scored on `batch` if given.
-    pub fn new(tax: &Taxonomy, settings: &Settings, temperatures: &Temperatures, scored: Option<(&Batch, &Metrics)>) -> Self {
+    pub fn new(
+        tax: &Taxonomy,
+        settings: &Settings,
+        temperatures: &Temperatures,
+        scored: Option<(&Batch, &Metrics)>,
+    ) -> Self {
         Profile {
             kind: KIND.to_string(),
             version: VERSION,
             rule: settings.rule,
             object_threshold: settings.thresholds.object,
             thresholds: settings.thresholds.depths.clone(),
-            node_thresholds: settings.thresholds.nodes.iter().map(|&(v, t)| (tax.id(v).to_string(), t)).collect(),
+            node_thresholds: settings
+                .thresholds
+                .nodes
+                .iter()
+                .map(|&(v, t)| (tax.id(v).to_string(), t))
+                .collect(),
             temperatures: temperatures.0.clone(),
             unverifiable: settings.policy,
-            taxonomy: TaxonomyStamp { fingerprint: tax.fingerprint().to_string(), nodes: tax.len(), depth: tax.max_depth() },
-            scored: scored.map(|(b, m)| Scored { data_fingerprint: b.fingerprint().to_string(), metrics: m.clone() }),
+            taxonomy: TaxonomyStamp {
+                fingerprint: tax.fingerprint().to_string(),
+                nodes: tax.len(),
+                depth: tax.max_depth(),
+            },
+            scored: scored.map(|(b, m)| Scored {
+                data_fingerprint: b.fingerprint().to_string(),
+                metrics: m.clone(),
+            }),
         }
     }
 
@@ -86,17 +103,38 @@ impl Profile {
 
     /// Parse and check a profile against the loaded taxonomy.
     pub fn from_json(bytes: &[u8], file: &str, tax: &Taxonomy) -> Result<Self> {
-        let at = |e: &serde_json::Error| Location::line(e.line() as u64).column(e.column().to_string());
-        let value: serde_json::Value = serde_json::from_slice(bytes).map_err(|e| Error::new(file, at(&e), ErrorKind::Json(e.to_string())))?;
+        let at =
+            |e: &serde_json::Error| Location::line(e.line() as u64).column(e.column().to_string());
+        let value: serde_json::Value = serde_json::from_slice(bytes)
+            .map_err(|e| Error::new(file, at(&e), ErrorKind::Json(e.to_string())))?;
         let kind = value.get("kind").and_then(|k| k.as_str()).unwrap_or("");
         if kind != KIND {
-            return Err(Error::new(file, Location::default(), ErrorKind::Invalid { what: "`kind`".into(), expected: format!("\"{KIND}\""), found: kind.to_string() }).into());
+            return Err(Error::new(
+                file,
+                Location::default(),
+                ErrorKind::Invalid {
+                    what: "`kind`".into(),
+                    expected: format!("\"{KIND}\""),
+                    found: kind.to_string(),
+                },
+            )
+            .into());
         }
         let version = value.get("version").and_then(|v| v.as_u64()).unwrap_or(0);
         if version != VERSION as u64 {
-            return Err(Error::new(file, Location::default(), ErrorKind::Invalid { what: "`version`".into(), expected: VERSION.to_string(), found: version.to_string() }).into());
+            return Err(Error::new(
+                file,
+                Location::default(),
+                ErrorKind::Invalid {
+                    what: "`version`".into(),
+                    expected: VERSION.to_string(),
+                    found: version.to_string(),
+                },
+            )
+            .into());
         }
-        let profile: Profile = serde_json::from_value(value).map_err(|e| Error::new(file, Location::default(), ErrorKind::Json(e.to_string())))?;
+        let profile: Profile = serde_json::from_value(value)
+            .map_err(|e| Error::new(file, Location::default(), ErrorKind::Json(e.to_string())))?;
         if profile.taxonomy.fingerprint != tax.fingerprint() {
             return Err(Error::new(
                 file,
@@ -110,8 +148,12 @@ impl Profile {
             )
             .into());
         }
-        profile.settings(tax).map_err(|k| Error::new(file, Location::default(), k))?;
-        Temperatures(profile.temperatures.clone()).validate().map_err(|k| Error::new(file, Location::default(), k))?;
+        profile
+            .settings(tax)
+            .map_err(|k| Error::new(file, Location::default(), k))?;
+        Temperatures(profile.temperatures.clone())
+            .validate()
+            .map_err(|k| Error::new(file, Location::default(), k))?;
         Ok(profile)
     }
 
@@ -119,12 +161,22 @@ impl Profile {
     pub fn settings(&self, tax: &Taxonomy) -> std::result::Result<Settings, ErrorKind> {
         let mut nodes = Vec::with_capacity(self.node_thresholds.len());
         for (id, &t) in &self.node_thresholds {
-            let v = tax.lookup(id).ok_or_else(|| ErrorKind::UnknownLabel { found: id.clone() })?;
+            let v = tax
+                .lookup(id)
+                .ok_or_else(|| ErrorKind::UnknownLabel { found: id.clone() })?;
             nodes.push((v, t));
         }
-        let thresholds = Thresholds { object: self.object_threshold, depths: self.thresholds.clone(), nodes };
+        let thresholds = Thresholds {
+            object: self.object_threshold,
+            depths: self.thresholds.clone(),
+            nodes,
+        };
         thresholds.validate()?;
-        Ok(Settings { rule: self.rule, thresholds, policy: self.unverifiable })
+        Ok(Settings {
+            rule: self.rule,
+            thresholds,
+            policy: self.unverifiable,
+        })
     }
 
     pub fn temperatures(&self) -> Temperatures {

@@ -78,7 +78,11 @@ pub struct Thresholds {
 
 impl Default for Thresholds {
     fn default() -> Self {
-        Thresholds { object: 0.5, depths: vec![0.5], nodes: Vec::new() }
+        Thresholds {
+            object: 0.5,
+            depths: vec![0.5],
+            nodes: Vec::new(),
+        }
     }
 }
 
@@ -86,13 +90,19 @@ impl Thresholds {
     /// t_d for depth `d ≥ 1`.
     pub fn at_depth(&self, d: usize) -> f64 {
         let i = d.saturating_sub(1);
-        self.depths.get(i).or(self.depths.last()).copied().unwrap_or(0.0)
+        self.depths
+            .get(i)
+            .or(self.depths.last())
+            .copied()
+            .unwrap_or(0.0)
     }
 
     /// The threshold each node is entered with: its override, else its depth's. Length
     /// `taxonomy.len() + 1` (the root's entry is t_0).
     pub fn resolve(&self, tax: &Taxonomy) -> Vec<f64> {
-        let mut out: Vec<f64> = (0..tax.len() as u32).map(|v| self.at_depth(tax.depth(v))).collect();
+        let mut out: Vec<f64> = (0..tax.len() as u32)
+            .map(|v| self.at_depth(tax.depth(v)))
+            .collect();
         out.push(self.object);
         for &(v, t) in &self.nodes {
             if let Some(slot) = out.get_mut(v as usize) {
@@ -108,12 +118,19 @@ impl Thresholds {
             if (0.0..=1.0).contains(&t) {
                 Ok(())
             } else {
-                Err(ErrorKind::ThresholdRange { what, found: t.to_string() })
+                Err(ErrorKind::ThresholdRange {
+                    what,
+                    found: t.to_string(),
+                })
             }
         };
         check("object threshold".into(), self.object)?;
         if self.depths.is_empty() {
-            return Err(ErrorKind::Invalid { what: "thresholds".into(), expected: "at least one value".into(), found: "none".into() });
+            return Err(ErrorKind::Invalid {
+                what: "thresholds".into(),
+                expected: "at least one value".into(),
+                found: "none".into(),
+            });
         }
         for (i, &t) in self.depths.iter().enumerate() {
             check(format!("threshold for depth {}", i + 1), t)?;
@@ -132,12 +149,18 @@ pub struct Temperatures(pub Vec<f64>);
 
 impl Temperatures {
     pub fn at_depth(&self, d: usize) -> f64 {
-        self.0.get(d.saturating_sub(1)).or(self.0.last()).copied().unwrap_or(1.0)
+        self.0
+            .get(d.saturating_sub(1))
+            .or(self.0.last())
+            .copied()
+            .unwrap_or(1.0)
     }
     pub fn validate(&self) -> Result<(), ErrorKind> {
         for &t in &self.0 {
             if !(t.is_finite() && t > 0.0) {
-                return Err(ErrorKind::TemperatureRange { found: t.to_string() });
+                return Err(ErrorKind::TemperatureRange {
+                    found: t.to_string(),
+                });
             }
         }
         Ok(())

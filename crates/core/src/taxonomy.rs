@@ -50,8 +50,7 @@ impl Taxonomy {
         let first = bytes
             .iter()
             .copied()
-            .skip_while(|b| b.is_ascii_whitespace() || *b == 0xEF || *b == 0xBB || *b == 0xBF)
-            .next();
+            .find(|b| !(b.is_ascii_whitespace() || *b == 0xEF || *b == 0xBB || *b == 0xBF));
         if first == Some(b'[') {
             Self::from_json(bytes, file)
         } else {
@@ -62,21 +61,48 @@ impl Taxonomy {
     /// CSV with a header holding `id` and `parent` (and optionally `name`); RFC 4180 quoting.
     pub fn from_csv(bytes: &[u8], file: &str) -> Result<Self> {
         let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
-        let mut reader = csv::ReaderBuilder::new().has_headers(true).flexible(false).from_reader(bytes);
+        let mut reader = csv::ReaderBuilder::new()
+            .has_headers(true)
+            .flexible(false)
+            .from_reader(bytes);
         let headers = reader
             .headers()
             .map_err(|e| Error::new(file, Location::line(1), ErrorKind::Csv(e.to_string())))?
             .clone();
-        let find = |name: &str| headers.iter().position(|h| h.trim().eq_ignore_ascii_case(name));
-        let found = || headers.iter().map(|h| format!("`{h}`")).collect::<Vec<_>>().join(", ");
+        let find = |name: &str| {
+            headers
+                .iter()
+                .position(|h| h.trim().eq_ignore_ascii_case(name))
+        };
+        let found = || {
+            headers
+                .iter()
+                .map(|h| format!("`{h}`"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        };
         let mut errors = Collector::default();
         let id_col = find("id");
         let parent_col = find("parent");
         if id_col.is_none() {
-            errors.push(Error::new(file, Location::line(1), ErrorKind::MissingColumn { expected: "id", found: found() }));
+            errors.push(Error::new(
+                file,
+                Location::line(1),
+                ErrorKind::MissingColumn {
+                    expected: "id",
+                    found: found(),
+                },
+            ));
         }
         if parent_col.is_none() {
-            errors.push(Error::new(file, Location::line(1), ErrorKind::MissingColumn { expected: "parent", found: found() }));
+            errors.push(Error::new(
+                file,
+                Location::line(1),
+                ErrorKind::MissingColumn {
+                    expected: "parent",
+                    found: found(),
+                },
+            ));
         }
         let (Some(id_col), Some(parent_col)) = (id_col, parent_col) else {
             errors.finish(file)?;
@@ -92,7 +118,11 @@ impl Taxonomy {
                     let parent = get(parent_col);
                     raw.push(RawNode {
                         id: get(id_col),
-                        parent: if parent.is_empty() { None } else { Some(parent) },
+                        parent: if parent.is_empty() {
+                            None
+                        } else {
+                            Some(parent)
+                        },
                         name: name_col.map(get).unwrap_or_default(),
                         at: Location::line(line),
                     });
@@ -100,7 +130,9 @@ impl Taxonomy {
                 Err(e) => {
                     let line = e.position().map(|p| p.line()).unwrap_or(0);
                     let kind = match e.kind() {
-                        csv::ErrorKind::UnequalLengths { expected_len, len, .. } => ErrorKind::Invalid {
+                        csv::ErrorKind::UnequalLengths {
+                            expected_len, len, ..
+                        } => ErrorKind::Invalid {
                             what: "row".into(),
                             expected: format!("{expected_len} fields as in the header"),
                             found: format!("{len} fields"),
@@ -120,13 +152,21 @@ impl Taxonomy {
     pub fn from_json(bytes: &[u8], file: &str) -> Result<Self> {
         let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
         let value: serde_json::Value = serde_json::from_slice(bytes).map_err(|e| {
-            Error::new(file, Location::line(e.line() as u64).column(e.column().to_string()), ErrorKind::Json(e.to_string()))
+            Error::new(
+                file,
+                Location::line(e.line() as u64).column(e.column().to_string()),
+                ErrorKind::Json(e.to_string()),
+            )
         })?;
         let Some(items) = value.as_array() else {
             return Err(Error::new(
                 file,
                 Location::default(),
-                ErrorKind::Invalid { what: "top level".into(), expected: "an array of node objects".into(), found: kind_of(&value).into() },
+                ErrorKind::Invalid {
+                    what: "top level".into(),
+                    expected: "an array of node objects".into(),
+                    found: kind_of(&value).into(),
+                },
             )
             .into());
         };
@@ -135,15 +175,29 @@ impl Taxonomy {
         for (i, item) in items.iter().enumerate() {
             let at = Location::entry(i as u64);
             let Some(obj) = item.as_object() else {
-                errors.push(Error::new(file, at, ErrorKind::Invalid { what: "entry".into(), expected: "an object".into(), found: kind_of(item).into() }));
+                errors.push(Error::new(
+                    file,
+                    at,
+                    ErrorKind::Invalid {
+                        what: "entry".into(),
+                        expected: "an object".into(),
+                        found: kind_of(item).into(),
+                    },
+                ));
                 continue;
             };
             let text = |key: &str| -> std::result::Result<Option<String>, ErrorKind> {
                 match obj.get(key) {
                     None | Some(serde_json::Value::Null) => Ok(None),
                     Some(serde_json::Value::String(s)) => Ok(Some(s.clone())),
-                    Some(serde_json::Value::Number(n)) if n.is_i64() || n.is_u64() => Ok(Some(n.to_string())),
-                    Some(other) => Err(ErrorKind::Invalid { what: format!("`{key}`"), expected: "a string".into(), found: kind_of(other).into() }),
+                    Some(serde_json::Value::Number(n)) if n.is_i64() || n.is_u64() => {
+                        Ok(Some(n.to_string()))
+                    }
+                    Some(other) => Err(ErrorKind::Invalid {
+                        what: format!("`{key}`"),
+                        expected: "a string".into(),
+                        found: kind_of(other).into(),
+                    }),
                 }
             };
             let (id, parent, name) = match (text("id"), text("parent"), text("name")) {
@@ -172,7 +226,11 @@ impl Taxonomy {
     pub fn build(raw: Vec<RawNode>, file: &str) -> Result<Self> {
         let mut errors = Collector::default();
         if raw.is_empty() {
-            errors.push(Error::new(file, Location::default(), ErrorKind::EmptyTaxonomy));
+            errors.push(Error::new(
+                file,
+                Location::default(),
+                ErrorKind::EmptyTaxonomy,
+            ));
             return errors.finish(file).and(Err(Errors(vec![])));
         }
         let m = raw.len();
@@ -180,7 +238,11 @@ impl Taxonomy {
         let mut index: HashMap<String, u32> = HashMap::with_capacity(m);
         for (k, node) in raw.iter().enumerate() {
             if node.id.is_empty() {
-                errors.push(Error::new(file, node.at.clone().column("id"), ErrorKind::Empty { what: "id" }));
+                errors.push(Error::new(
+                    file,
+                    node.at.clone().column("id"),
+                    ErrorKind::Empty { what: "id" },
+                ));
                 continue;
             }
             if let Some(&first) = index.get(&node.id) {
@@ -188,7 +250,10 @@ impl Taxonomy {
                 errors.push(Error::new(
                     file,
                     node.at.clone().column("id"),
-                    ErrorKind::DuplicateId { id: node.id.clone(), first: first_at.trim_start_matches(", ").to_string() },
+                    ErrorKind::DuplicateId {
+                        id: node.id.clone(),
+                        first: first_at.trim_start_matches(", ").to_string(),
+                    },
                 ));
             } else {
                 index.insert(node.id.clone(), k as u32);
@@ -202,7 +267,10 @@ impl Taxonomy {
                     None => errors.push(Error::new(
                         file,
                         node.at.clone().column("parent"),
-                        ErrorKind::UnknownParent { id: node.id.clone(), parent: p.clone() },
+                        ErrorKind::UnknownParent {
+                            id: node.id.clone(),
+                            parent: p.clone(),
+                        },
                     )),
                 }
             }
@@ -221,8 +289,8 @@ impl Taxonomy {
         let child_start = counts;
         let mut fill = child_start.clone();
         let mut children = vec![0u32; m];
-        for k in 0..m {
-            let p = parent[k] as usize;
+        for (k, &p) in parent.iter().enumerate().take(m) {
+            let p = p as usize;
             children[fill[p] as usize] = k as u32;
             fill[p] += 1;
         }
@@ -251,7 +319,14 @@ impl Taxonomy {
             }
         }
         if too_deep {
-            errors.push(Error::new(file, Location::default(), ErrorKind::TooDeep { depth: MAX_DEPTH + 1, max: MAX_DEPTH }));
+            errors.push(Error::new(
+                file,
+                Location::default(),
+                ErrorKind::TooDeep {
+                    depth: MAX_DEPTH + 1,
+                    max: MAX_DEPTH,
+                },
+            ));
             return errors.finish(file).and(Err(Errors(vec![])));
         }
         // Every unreached node hangs on a cycle (or below one): follow parents until a node
@@ -283,7 +358,11 @@ impl Taxonomy {
                     .map(|&c| format!("`{}`", raw[c].id))
                     .collect::<Vec<_>>()
                     .join(" → ");
-                errors.push(Error::new(file, raw[first].at.clone().column("parent"), ErrorKind::Cycle { cycle: text }));
+                errors.push(Error::new(
+                    file,
+                    raw[first].at.clone().column("parent"),
+                    ErrorKind::Cycle { cycle: text },
+                ));
             }
             for c in seen {
                 reported[c] = true;
@@ -330,7 +409,20 @@ impl Taxonomy {
         }
         let fingerprint = fingerprint(&raw);
         let (ids, names) = raw.into_iter().map(|r| (r.id, r.name)).unzip();
-        Ok(Taxonomy { ids, names, parent, depth, child_start, children, leaves, gain, anc, max_depth, index, fingerprint })
+        Ok(Taxonomy {
+            ids,
+            names,
+            parent,
+            depth,
+            child_start,
+            children,
+            leaves,
+            gain,
+            anc,
+            max_depth,
+            index,
+            fingerprint,
+        })
     }
 
     /// Number of nodes (rows of the file, logit columns), without the implicit root.
@@ -387,7 +479,10 @@ impl Taxonomy {
     /// The ancestor of `v` at depth `d` (`v` itself when `d == depth(v)`), [`NONE`] if `d` is
     /// below `v`.
     pub fn ancestor(&self, v: u32, d: usize) -> u32 {
-        self.anc.get(v as usize * (self.max_depth + 1) + d).copied().unwrap_or(NONE)
+        self.anc
+            .get(v as usize * (self.max_depth + 1) + d)
+            .copied()
+            .unwrap_or(NONE)
     }
     /// The ancestors of `v` from depth 0 (the root) to `v` itself.
     pub fn path(&self, v: u32) -> &[u32] {
@@ -398,7 +493,11 @@ impl Taxonomy {
     /// Depth of the lowest common ancestor of `a` and `b`.
     pub fn lca_depth(&self, a: u32, b: u32) -> usize {
         let (pa, pb) = (self.path(a), self.path(b));
-        pa.iter().zip(pb).take_while(|(x, y)| x == y).count().saturating_sub(1)
+        pa.iter()
+            .zip(pb)
+            .take_while(|(x, y)| x == y)
+            .count()
+            .saturating_sub(1)
     }
     /// Edges between `a` and `b` through their lowest common ancestor.
     pub fn distance(&self, a: u32, b: u32) -> usize {
