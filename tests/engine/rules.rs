@@ -387,3 +387,44 @@ fn one_column_label_csv_keeps_blank_lines_as_background() {
     let l = Labels::parse(b"row,label\n0,f\n1,\n", "y.csv", &tax).expect("two columns");
     assert_eq!(l.nodes, vec![f, bg]);
 }
+
+/// The branch-free kernel (no overrides) and the general loop (with overrides) must agree
+/// exactly: a no-op override (equal to its depth's threshold) forces the general loop.
+#[test]
+fn fast_kernel_equals_general_loop() {
+    let tax = taxonomy(TREE);
+    let ids = ["f", "g", "c", "e", "b", "a", "", "d"];
+    let rows: Vec<Vec<f64>> = (0..200)
+        .map(|i| {
+            (0..7)
+                .map(|c| (((i * 31 + c * 17) % 23) as f64 * 0.47).sin() * 3.0)
+                .collect()
+        })
+        .collect();
+    let labels: Vec<&str> = (0..200).map(|i| ids[(i * 7) % ids.len()]).collect();
+    let obj: Vec<f32> = (0..200).map(|i| ((i * 53) % 101) as f32 / 100.0).collect();
+    let b = batch(&tax, &rows, &labels, Some(&obj), &[]);
+    let f = tax.lookup("f").expect("f");
+    for rule in [Rule::Cumulative, Rule::Conditional] {
+        for (i, depths) in [
+            vec![0.0],
+            vec![1.0],
+            vec![0.5],
+            vec![0.9, 0.6, 0.3],
+            vec![0.2, 0.75],
+        ]
+        .into_iter()
+        .enumerate()
+        {
+            let policy = [Policy::Credit, Policy::Penalize, Policy::Exclude][i % 3];
+            let fast = settings(rule, &depths, 0.1 * i as f64, policy);
+            let mut slow = fast.clone();
+            slow.thresholds.nodes = vec![(f, fast.thresholds.at_depth(3))];
+            assert_eq!(
+                evaluate(&tax, &b, &fast),
+                evaluate(&tax, &b, &slow),
+                "{rule:?} {depths:?}"
+            );
+        }
+    }
+}

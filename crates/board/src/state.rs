@@ -10,7 +10,7 @@ use std::collections::BTreeMap;
 use std::rc::Rc;
 
 use hedgerow_core::{
-    evaluate, exact_curve, npy, Batch, CurvePoint, Errors, Ingested, Labels, Metrics, Objectness,
+    evaluate, npy, CurveIndex, Batch, CurvePoint, Errors, Ingested, Labels, Metrics, Objectness,
     Policy, Profile, Rule, Settings, Taxonomy, Temperatures,
 };
 use serde::{Deserialize, Serialize};
@@ -197,6 +197,7 @@ pub struct Board {
     pub metrics: Option<Metrics>,
     pub curve: Rc<Vec<CurvePoint>>,
     curve_key: Option<(Rule, u64, Policy, usize)>,
+    curve_index: Option<(usize, Rule, Rc<CurveIndex>)>,
     pub sweep: Rc<Vec<TradePoint>>,
     sweep_key: Option<SweepKey>,
     /// Bumped whenever a new batch becomes active (for caches keyed on it).
@@ -204,6 +205,8 @@ pub struct Board {
     /// The key whose read failed, so it is not retried until something changes.
     logits_failed_for: Option<IngestKey>,
     pending_total: u64,
+    /// The logits file and paths a `LogitsChosen` replaced, put back by `LogitsCancelled`.
+    before_choice: Option<(Option<String>, Option<(IngestKey, Rc<Ingested>)>)>,
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -291,6 +294,7 @@ impl Board {
                     .insert(slot.unwrap_or(Slot::Profile), vec![message]);
             }
             Action::LogitsChosen { name, total } => {
+                self.before_choice = Some((self.logits.take(), self.ingested.take()));
                 self.logits = Some(name.clone());
                 self.errors.remove(&Slot::Logits);
                 self.logits_failed_for = None;
@@ -311,18 +315,30 @@ impl Board {
             }
             Action::LogitsCancelled => {
                 self.progress = None;
-                self.logits = self
-                    .active
-                    .as_ref()
-                    .and_then(|a| a.names.get(&Slot::Logits).cloned());
+                // Back to the file and paths from before the choice (a new file's read was
+                // cancelled) and to the temperatures those paths were read with (a re-read for
+                // new temperatures was cancelled), so that nothing asks for the read again.
+                if let Some((logits, ingested)) = self.before_choice.take() {
+                    self.logits = logits;
+                    self.ingested = ingested;
+                }
+                match &self.ingested {
+                    Some((key, _)) => self.temperatures = Temperatures(key.temperatures.clone()),
+                    None => {
+                        self.logits = self
+                            .active
+                            .as_ref()
+                            .and_then(|a| a.names.get(&Slot::Logits).cloned())
+                    }
+                }
                 self.notes.insert(
                     Slot::Logits,
                     "reading cancelled; the batch in use is kept".into(),
                 );
-                self.ingested = None;
             }
             Action::LogitsDone { key, result } => {
                 self.progress = None;
+                self.before_choice = None;
                 match result {
                     Ok(ingested) => {
                         let h = &ingested.header;
@@ -628,13 +644,17 @@ impl Board {
             self.generation,
         );
         if self.curve_key != Some(curve_key) {
-            self.curve = Rc::new(exact_curve(
-                &a.taxonomy,
-                &a.batch,
-                self.settings.rule,
-                object,
-                self.settings.policy,
-            ));
+            // Breakpoints are sorted once per (batch, rule); the object threshold and the
+            // policy only re-sweep them.
+            let index = match &self.curve_index {
+                Some((g, rule, index)) if *g == self.generation && *rule == self.settings.rule => index.clone(),
+                _ => {
+                    let index = Rc::new(CurveIndex::new(&a.taxonomy, &a.batch, self.settings.rule));
+                    self.curve_index = Some((self.generation, self.settings.rule, index.clone()));
+                    index
+                }
+            };
+            self.curve = Rc::new(index.sweep(&a.taxonomy, &a.batch, object, self.settings.policy));
             self.curve_key = Some(curve_key);
         }
         let depth = self.focus.clamp(1, a.taxonomy.max_depth().max(1));
@@ -764,3 +784,83 @@ pub const HELP: &[(&str, &str, &str)] = &[
     ("hierarchical-f1", "hier. F1", "harmonic mean of hierarchical precision and recall"),
     ("mistake-severity", "mistake severity", "mean tree distance between a wrong prediction and its label, in edges"),
 ];
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use hedgerow_core::paths::ingest_bytes;
+
+    fn demo(name: &str) -> Rc<Vec<u8>> {
+        let path = concat!(env!("CARGO_MANIFEST_DIR"), "/../../demo-data/");
+        Rc::new(std::fs::read(format!("{path}{name}")).unwrap_or_else(|e| panic!("{name}: {e}")))
+    }
+
+    /// What the page's shell does when the board asks for paths (in one piece here).
+    fn pump(b: &mut Board) {
+        while let Some(key) = b.wanted_ingest() {
+            let tax = b
+                .taxonomy
+                .as_ref()
+                .map(|(_, t)| t.clone())
+                .expect("taxonomy");
+            let temps = Temperatures(key.temperatures.clone());
+            b.apply(Action::LogitsProgress { done: 0 });
+            let result = ingest_bytes("logits.npy", &tax, &temps, &demo("logits.npy"));
+            b.apply(Action::LogitsDone { key, result });
+        }
+    }
+
+    fn loaded() -> Board {
+        let mut b = Board::new();
+        b.apply(Action::File {
+            name: "taxonomy.csv".into(),
+            bytes: demo("taxonomy.csv"),
+        });
+        b.apply(Action::LogitsChosen {
+            name: "logits.npy".into(),
+            total: 1,
+        });
+        b.apply(Action::File {
+            name: "labels.csv".into(),
+            bytes: demo("labels.csv"),
+        });
+        pump(&mut b);
+        assert!(b.active.is_some());
+        b
+    }
+
+    #[test]
+    fn cancelling_a_new_file_keeps_the_previous_paths_and_asks_for_no_read() {
+        let mut b = loaded();
+        let before = b.ingested.as_ref().map(|(k, i)| (k.clone(), Rc::as_ptr(i)));
+        b.apply(Action::LogitsChosen {
+            name: "other.npy".into(),
+            total: 10,
+        });
+        assert!(b.wanted_ingest().is_some());
+        b.apply(Action::LogitsProgress { done: 5 });
+        b.apply(Action::LogitsCancelled);
+        assert_eq!(b.logits.as_deref(), Some("logits.npy"));
+        assert_eq!(
+            b.ingested.as_ref().map(|(k, i)| (k.clone(), Rc::as_ptr(i))),
+            before
+        );
+        assert!(b.progress.is_none());
+        assert_eq!(b.wanted_ingest(), None, "no re-read after a cancel");
+    }
+
+    #[test]
+    fn cancelling_a_re_read_for_new_temperatures_restores_the_temperatures() {
+        let mut b = loaded();
+        b.apply(Action::SetTemperature {
+            depth: 2,
+            value: 1.5,
+        });
+        assert!(b.wanted_ingest().is_some());
+        b.apply(Action::LogitsProgress { done: 5 });
+        b.apply(Action::LogitsCancelled);
+        assert_eq!(b.temperatures.expand(b.depth()), vec![1.0; b.depth()]);
+        assert_eq!(b.wanted_ingest(), None, "no re-read after a cancel");
+        assert!(b.metrics.is_some());
+    }
+}

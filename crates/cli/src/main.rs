@@ -1,5 +1,6 @@
 //! `hedgerow`: the command line over hedgerow-core: evaluate, decode, curve and profile.
 
+mod bench;
 mod load;
 mod report;
 
@@ -53,6 +54,17 @@ enum Command {
         settings: SettingArgs,
         #[arg(long)]
         out: Option<PathBuf>,
+    },
+    /// Time the engine on a batch: ingestion, re-evaluation after a threshold change, the exact
+    /// curve; prints one JSON object (used by `cargo xtask bench`).
+    Bench {
+        #[command(flatten)]
+        input: Input,
+        #[command(flatten)]
+        settings: SettingArgs,
+        /// Threshold changes to time (the median is reported).
+        #[arg(long, default_value_t = 50)]
+        repeat: usize,
     },
     /// Write a threshold profile from the given settings, scored on the batch.
     Profile {
@@ -165,6 +177,14 @@ fn run(cli: Cli) -> Result<(), Failure> {
             );
             let bytes = report::curve_csv(&points).map_err(Failure::Other)?;
             write_out(out.as_ref(), &bytes)
+        }
+        Command::Bench {
+            input,
+            settings,
+            repeat,
+        } => {
+            let text = bench::run(&input, &settings, repeat)?;
+            write_out(None, text.as_bytes())
         }
         Command::Profile {
             input,

@@ -367,6 +367,20 @@ impl Batch {
     pub fn root_probability(&self, r: usize) -> f64 {
         self.objectness.as_ref().map_or(1.0, |o| o[r] as f64)
     }
+    pub(crate) fn agree_all(&self) -> &[u8] {
+        &self.agree
+    }
+    pub(crate) fn label_depth_all(&self) -> &[u8] {
+        &self.label_depth
+    }
+    /// Rows with a (non-background) label.
+    pub fn labelled_rows(&self) -> u64 {
+        self.label_depth.iter().filter(|&&d| d > 0).count() as u64
+    }
+    /// Σ depth(label) over labelled rows: the denominator of hierarchical recall.
+    pub fn label_depth_sum(&self) -> u64 {
+        self.label_depth.iter().map(|&d| d as u64).sum()
+    }
     pub(crate) fn agree(&self, r: usize) -> usize {
         self.agree[r] as usize
     }

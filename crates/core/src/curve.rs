@@ -59,82 +59,151 @@ pub fn exact_curve(
     object_threshold: f64,
     policy: Policy,
 ) -> Vec<CurvePoint> {
-    // (breakpoint m, row, depth reached at m); a row's equal consecutive m_d merge into the
-    // deepest d so each event moves its row strictly deeper.
-    let mut events: Vec<(f64, u32, u8)> = Vec::new();
-    let mut depth_now: Vec<u8> = vec![0; batch.len()];
-    let mut run = Running::default();
-    let mut predicting = 0u64;
-    for r in 0..batch.len() {
-        let p_root = batch.root_probability(r);
-        if batch.has_objectness() && p_root < object_threshold {
-            continue;
-        }
-        predicting += 1;
-        run.add(outcome_at(batch, r, 0), 0.0, 1);
-        let leaf = batch.paths().leaf(r);
-        let cond = batch.paths().cond(r);
-        let (mut p, mut m) = (p_root, f64::INFINITY);
-        for d in 1..=tax.depth(leaf) {
-            let c = cond[d - 1] as f64;
-            p *= c;
-            let q = match rule {
-                Rule::Cumulative => p,
-                Rule::Conditional => c,
-            };
-            m = m.min(q);
-            match events.last_mut() {
-                Some(last) if last.1 == r as u32 && last.0 == m => last.2 = d as u8,
-                _ => events.push((m, r as u32, d as u8)),
+    CurveIndex::new(tax, batch, rule).sweep(tax, batch, object_threshold, policy)
+}
+
+/// One breakpoint: row `row` reaches depth `depth` once the shared threshold is ≤ the f64 whose
+/// bits are `key` (non-negative floats order like their bits).
+#[derive(Debug, Clone, Copy)]
+struct Event {
+    key: u64,
+    row: u32,
+    depth: u8,
+}
+
+/// Every row's breakpoints, sorted once per (batch, rule). Moving the object threshold or
+/// changing the policy re-sweeps it in linear time without sorting again.
+#[derive(Debug, Clone)]
+pub struct CurveIndex {
+    rule: Rule,
+    events: Vec<Event>,
+}
+
+impl CurveIndex {
+    pub fn new(tax: &Taxonomy, batch: &Batch, rule: Rule) -> Self {
+        // A row's equal consecutive m_d merge into the deepest d, so each event moves its row
+        // strictly deeper.
+        let mut events: Vec<Event> = Vec::with_capacity(batch.len() * 2);
+        for r in 0..batch.len() {
+            let leaf = batch.paths().leaf(r);
+            let cond = batch.paths().cond(r);
+            let (mut p, mut m) = (batch.root_probability(r), f64::INFINITY);
+            for d in 1..=tax.depth(leaf) {
+                let c = cond[d - 1] as f64;
+                p *= c;
+                let q = match rule {
+                    Rule::Cumulative => p,
+                    Rule::Conditional => c,
+                };
+                m = m.min(q);
+                let key = m.max(0.0).to_bits();
+                match events.last_mut() {
+                    Some(last) if last.row == r as u32 && last.key == key => last.depth = d as u8,
+                    _ => events.push(Event {
+                        key,
+                        row: r as u32,
+                        depth: d as u8,
+                    }),
+                }
             }
         }
+        events.sort_unstable_by_key(|e| std::cmp::Reverse(e.key));
+        CurveIndex { rule, events }
     }
-    events.sort_unstable_by(|a, b| b.0.total_cmp(&a.0));
-    let point = |t: f64, run: &Running| {
-        let (c, u, w) = (
-            run.correct.max(0) as u64,
-            run.unverifiable.max(0) as u64,
-            run.wrong.max(0) as u64,
-        );
-        let n = predicting as f64;
-        CurvePoint {
-            threshold: t,
-            predictions: predicting,
-            correct: c,
-            unverifiable: u,
-            wrong: w,
-            precision: precision(policy, c, u, w),
-            specificity: (predicting > 0).then(|| run.gain / n),
-            reward: (predicting > 0).then(|| run.reward / n),
+
+    pub fn rule(&self) -> Rule {
+        self.rule
+    }
+
+    /// Breakpoints held (memory is about 16 bytes each).
+    pub fn len(&self) -> usize {
+        self.events.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.events.is_empty()
+    }
+
+    /// The curve with the object threshold held at `object_threshold`.
+    pub fn sweep(
+        &self,
+        tax: &Taxonomy,
+        batch: &Batch,
+        object_threshold: f64,
+        policy: Policy,
+    ) -> Vec<CurvePoint> {
+        let predicts: Vec<bool> = (0..batch.len())
+            .map(|r| !batch.has_objectness() || batch.root_probability(r) >= object_threshold)
+            .collect();
+        let mut depth_now: Vec<u8> = vec![0; batch.len()];
+        let mut run = Running::default();
+        let mut predicting = 0u64;
+        for (r, _) in predicts.iter().enumerate().filter(|(_, &p)| p) {
+            predicting += 1;
+            run.add(outcome_at(batch, r, 0), 0.0, 1);
         }
-    };
-    let mut out = Vec::new();
-    let mut i = 0;
-    let mut apply = |i: usize, run: &mut Running| {
-        let (_, r, d) = events[i];
-        let (r, d) = (r as usize, d as usize);
-        let leaf = batch.paths().leaf(r);
-        let old = depth_now[r] as usize;
-        run.add(
-            outcome_at(batch, r, old),
-            tax.gain(tax.ancestor(leaf, old)),
-            -1,
-        );
-        run.add(outcome_at(batch, r, d), tax.gain(tax.ancestor(leaf, d)), 1);
-        depth_now[r] = d as u8;
-    };
-    while i < events.len() && events[i].0 >= 1.0 {
-        apply(i, &mut run);
-        i += 1;
-    }
-    out.push(point(1.0, &run));
-    while i < events.len() {
-        let t = events[i].0;
-        while i < events.len() && events[i].0 == t {
-            apply(i, &mut run);
+        let point = |t: f64, run: &Running| {
+            let (c, u, w) = (
+                run.correct.max(0) as u64,
+                run.unverifiable.max(0) as u64,
+                run.wrong.max(0) as u64,
+            );
+            let n = predicting as f64;
+            CurvePoint {
+                threshold: t,
+                predictions: predicting,
+                correct: c,
+                unverifiable: u,
+                wrong: w,
+                precision: precision(policy, c, u, w),
+                specificity: (predicting > 0).then(|| run.gain / n),
+                reward: (predicting > 0).then(|| run.reward / n),
+            }
+        };
+        let mut apply = |e: &Event, run: &mut Running| {
+            let (r, d) = (e.row as usize, e.depth as usize);
+            if !predicts[r] {
+                return;
+            }
+            let leaf = batch.paths().leaf(r);
+            let old = depth_now[r] as usize;
+            run.add(outcome_at(batch, r, old), tax.gain_at(leaf, old), -1);
+            run.add(outcome_at(batch, r, d), tax.gain_at(leaf, d), 1);
+            depth_now[r] = d as u8;
+        };
+        let one = 1f64.to_bits();
+        let mut out = Vec::new();
+        let mut i = 0;
+        while i < self.events.len() && self.events[i].key >= one {
+            apply(&self.events[i], &mut run);
             i += 1;
         }
-        out.push(point(t, &run));
+        out.push(point(1.0, &run));
+        while i < self.events.len() {
+            let key = self.events[i].key;
+            while i < self.events.len() && self.events[i].key == key {
+                apply(&self.events[i], &mut run);
+                i += 1;
+            }
+            // Skip breakpoints that belong only to rows under the object threshold.
+            let t = f64::from_bits(key);
+            match out.last() {
+                Some(last)
+                    if (last.correct, last.unverifiable, last.wrong)
+                        == (
+                            run.correct as u64,
+                            run.unverifiable as u64,
+                            run.wrong as u64,
+                        )
+                        && same_gain(last, &run, predicting) => {}
+                _ => out.push(point(t, &run)),
+            }
+        }
+        out
     }
-    out
+}
+
+/// Whether a point already describes the running state (only rows that do not predict moved).
+fn same_gain(last: &CurvePoint, run: &Running, predicting: u64) -> bool {
+    predicting == 0 || last.specificity == Some(run.gain / predicting as f64)
 }

@@ -147,50 +147,177 @@ pub(crate) fn outcome_at(batch: &Batch, r: usize, s: usize) -> Outcome {
     }
 }
 
+/// Running sums of one evaluation, before they become ratios.
+#[derive(Debug, Clone, Default)]
+struct Sums {
+    stop_count: Vec<OutcomeCount>,
+    abstained: u64,
+    false_alarms: u64,
+    gain: f64,
+    reward: f64,
+    h_inter: u64,
+    h_pred: u64,
+    severity: u64,
+    severity_n: u64,
+}
+
 /// Decode every row under `settings` and compute all metrics.
+///
+/// Without per-node overrides this runs a branch-free kernel over the stored paths (one pass,
+/// no ancestor lookups while descending); with overrides, the general loop. Both give the same
+/// sums in the same order, so the results are identical.
 pub fn evaluate(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Metrics {
+    let sums = if settings.thresholds.nodes.is_empty() {
+        let depths: Vec<f64> = (1..=batch.paths().width())
+            .map(|d| settings.thresholds.at_depth(d))
+            .collect();
+        match settings.rule {
+            Rule::Cumulative => kernel::<true>(tax, batch, &depths, settings.thresholds.object),
+            Rule::Conditional => kernel::<false>(tax, batch, &depths, settings.thresholds.object),
+        }
+    } else {
+        general(tax, batch, settings)
+    };
+    finish(batch, settings, sums)
+}
+
+/// The fast path: per row, the stop depth is the number of leading depths that pass (padding
+/// beyond the leaf is negative, so it never passes); every count is updated with selects
+/// instead of branches, which keeps the data-dependent stop decision from stalling the CPU.
+fn kernel<const CUMULATIVE: bool>(
+    tax: &Taxonomy,
+    batch: &Batch,
+    depths: &[f64],
+    object: f64,
+) -> Sums {
+    let paths = batch.paths();
+    let w = paths.width();
+    let levels = w + 1;
+    // counts[s * 3 + outcome], then one bucket for abstentions; two copies for alternate rows
+    // so consecutive increments of the same bucket do not wait on each other.
+    let stride = levels * 3 + 1;
+    let mut counts = vec![0u64; 2 * stride];
+    let abstain_bucket = levels * 3;
+    let mut sums = Sums::default();
+    let has_object = batch.has_objectness();
+    let cond = paths.cond_all();
+    let leaves = paths.leaves();
+    let agree = batch.agree_all();
+    let label_depth = batch.label_depth_all();
+    for r in 0..batch.len() {
+        let p_root = batch.root_probability(r);
+        let predicts = !has_object || p_root >= object;
+        let row = &cond[r * w..(r + 1) * w];
+        let mut p = p_root;
+        let mut alive = true;
+        let mut s = 0usize;
+        for (&c, &t) in row.iter().zip(depths) {
+            let c = c as f64;
+            let q = if CUMULATIVE {
+                p *= c;
+                p
+            } else {
+                c
+            };
+            alive &= q >= t;
+            s += alive as usize;
+        }
+        let a = agree[r] as usize;
+        let gd = label_depth[r] as usize;
+        let labelled = gd > 0;
+        let correct = labelled & (s <= a);
+        let unverifiable = labelled & !correct & (a == gd);
+        let outcome = if correct {
+            0
+        } else if unverifiable {
+            1
+        } else {
+            2
+        };
+        counts[(r & 1) * stride
+            + if predicts {
+                s * 3 + outcome
+            } else {
+                abstain_bucket
+            }] += 1;
+        let gain = tax.gain_at(leaves[r], s);
+        sums.gain += if predicts { gain } else { 0.0 };
+        sums.reward += if predicts & correct { gain } else { 0.0 };
+        let scored = (predicts & labelled) as u64;
+        let inter = s.min(a) as u64;
+        sums.h_pred += s as u64 * scored;
+        sums.h_inter += inter * scored;
+        let wrong = scored * (outcome == 2) as u64;
+        sums.severity += (s as u64 + gd as u64 - 2 * inter) * wrong;
+        sums.severity_n += wrong;
+        sums.false_alarms += (predicts & !labelled) as u64;
+    }
+    let count = |i: usize| counts[i] + counts[stride + i];
+    sums.abstained = count(abstain_bucket);
+    sums.stop_count = (0..levels)
+        .map(|s| OutcomeCount {
+            correct: count(s * 3),
+            unverifiable: count(s * 3 + 1),
+            wrong: count(s * 3 + 2),
+        })
+        .collect();
+    sums
+}
+
+/// The general path: per-node thresholds looked up along each row's path.
+fn general(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Sums {
     let thresholds = settings.thresholds.resolve(tax);
-    let levels = tax.max_depth() + 1;
-    let mut stop_count = vec![OutcomeCount::default(); levels];
-    let (mut abstained, mut false_alarms, mut labelled) = (0u64, 0u64, 0u64);
-    let (mut gain_sum, mut reward_sum) = (0.0f64, 0.0f64);
-    let (mut h_inter, mut h_pred, mut h_true) = (0u64, 0u64, 0u64);
-    let (mut severity_sum, mut severity_n) = (0u64, 0u64);
+    let mut sums = Sums {
+        stop_count: vec![OutcomeCount::default(); batch.paths().width() + 1],
+        ..Sums::default()
+    };
     for r in 0..batch.len() {
         let g = batch.label(r);
-        if g != NONE {
-            labelled += 1;
-            h_true += batch.label_depth(r) as u64;
-        }
         let Some(s) = stop_depth(tax, batch, settings.rule, &thresholds, r) else {
-            abstained += 1;
+            sums.abstained += 1;
             continue;
         };
-        let pred = tax.ancestor(batch.paths().leaf(r), s);
-        let gain = tax.gain(pred);
-        gain_sum += gain;
+        let gain = tax.gain(tax.ancestor(batch.paths().leaf(r), s));
+        sums.gain += gain;
         let outcome = outcome_at(batch, r, s);
-        let slot = &mut stop_count[s];
+        let slot = &mut sums.stop_count[s];
         match outcome {
             Outcome::Correct => {
                 slot.correct += 1;
-                reward_sum += gain;
+                sums.reward += gain;
             }
             Outcome::Unverifiable => slot.unverifiable += 1,
             _ => slot.wrong += 1,
         }
         if g == NONE {
-            false_alarms += 1;
+            sums.false_alarms += 1;
             continue;
         }
         let a = batch.agree(r);
-        h_pred += s as u64;
-        h_inter += s.min(a) as u64;
+        sums.h_pred += s as u64;
+        sums.h_inter += s.min(a) as u64;
         if outcome == Outcome::Wrong {
-            severity_sum += (s + batch.label_depth(r) - 2 * s.min(a)) as u64;
-            severity_n += 1;
+            sums.severity += (s + batch.label_depth(r) - 2 * s.min(a)) as u64;
+            sums.severity_n += 1;
         }
     }
+    sums
+}
+
+fn finish(batch: &Batch, settings: &Settings, sums: Sums) -> Metrics {
+    let Sums {
+        stop_count,
+        abstained,
+        false_alarms,
+        gain: gain_sum,
+        reward: reward_sum,
+        h_inter,
+        h_pred,
+        severity: severity_sum,
+        severity_n,
+    } = sums;
+    let labelled = batch.labelled_rows();
+    let h_true = batch.label_depth_sum();
     let correct: u64 = stop_count.iter().map(|c| c.correct).sum();
     let unverifiable: u64 = stop_count.iter().map(|c| c.unverifiable).sum();
     let wrong: u64 = stop_count.iter().map(|c| c.wrong).sum();

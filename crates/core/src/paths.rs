@@ -7,6 +7,9 @@ use crate::npy::{self, Header};
 use crate::settings::Temperatures;
 use crate::taxonomy::Taxonomy;
 
+/// Stored beyond a path's leaf: negative, so no threshold in [0, 1] lets descent pass it.
+pub const PAD: f32 = -1.0;
+
 /// The greedy paths of a batch: row `r` descends root → `ancestor(leaf[r], 1)` → … → `leaf[r]`,
 /// and `cond[r * width + d - 1]` is p(node at depth d | its parent), rounded to f32.
 #[derive(Debug, Clone, Default)]
@@ -37,9 +40,13 @@ impl Paths {
     pub fn leaf(&self, r: usize) -> u32 {
         self.leaf[r]
     }
-    /// Conditional probabilities along row `r`'s path, depth 1 first (padded to `width` with 0).
+    /// Conditional probabilities along row `r`'s path, depth 1 first (padded to `width` with [`PAD`]).
     pub fn cond(&self, r: usize) -> &[f32] {
         &self.cond[r * self.width..(r + 1) * self.width]
+    }
+    /// All conditionals, row-major (`width` per row).
+    pub fn cond_all(&self) -> &[f32] {
+        &self.cond
     }
     pub fn leaves(&self) -> &[u32] {
         &self.leaf
@@ -52,7 +59,7 @@ impl Paths {
     pub fn push(&mut self, leaf: u32, cond: &[f32]) {
         self.leaf.push(leaf);
         let start = self.cond.len();
-        self.cond.resize(start + self.width, 0.0);
+        self.cond.resize(start + self.width, PAD);
         let n = cond.len().min(self.width);
         self.cond[start..start + n].copy_from_slice(&cond[..n]);
     }
@@ -308,11 +315,11 @@ impl LogitsReader {
             self.paths.leaf.push(tax.root());
             self.paths
                 .cond
-                .resize(self.paths.cond.len() + self.paths.width, 0.0);
+                .resize(self.paths.cond.len() + self.paths.width, PAD);
             return;
         }
         let start = self.paths.cond.len();
-        self.paths.cond.resize(start + self.paths.width, 0.0);
+        self.paths.cond.resize(start + self.paths.width, PAD);
         let leaf = descend(
             tax,
             &self.temps,

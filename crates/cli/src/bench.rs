@@ -1,0 +1,72 @@
+//! `hedgerow bench`: wall-clock figures for one batch, as JSON, for `cargo xtask bench`.
+//! Timing lives here (not in tests): tests never assert on time.
+
+use std::time::Instant;
+
+use hedgerow_core::{evaluate, exact_curve};
+
+use crate::load::{Failure, Loaded};
+use crate::{Input, SettingArgs};
+
+fn median(mut v: Vec<f64>) -> f64 {
+    v.sort_by(f64::total_cmp);
+    v.get(v.len() / 2).copied().unwrap_or(f64::NAN)
+}
+
+/// Peak resident memory of this process in bytes (Linux), if known.
+fn peak_rss() -> Option<u64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
+    let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kb * 1024)
+}
+
+pub fn run(input: &Input, args: &SettingArgs, repeat: usize) -> Result<String, Failure> {
+    let bytes = std::fs::metadata(&input.logits)
+        .map(|m| m.len())
+        .unwrap_or(0);
+    let t = Instant::now();
+    let loaded = Loaded::load(input, args)?;
+    let load_seconds = t.elapsed().as_secs_f64();
+    let (tax, batch) = (&loaded.taxonomy, &loaded.batch);
+    let depth = tax.max_depth();
+    // Each timed change moves one depth's threshold, as dragging a slider does.
+    let mut settings = loaded.settings.clone();
+    let mut times = Vec::with_capacity(repeat);
+    let mut checksum = 0u64;
+    for i in 0..repeat.max(1) {
+        let d = i % depth.max(1);
+        if let Some(t) = settings.thresholds.depths.get_mut(d) {
+            *t = 0.3 + 0.6 * ((i * 7919) % 101) as f64 / 100.0;
+        }
+        let t = Instant::now();
+        let m = evaluate(tax, batch, &settings);
+        times.push(t.elapsed().as_secs_f64());
+        checksum = checksum.wrapping_add(m.correct);
+    }
+    let t = Instant::now();
+    let curve = exact_curve(
+        tax,
+        batch,
+        settings.rule,
+        settings.thresholds.object,
+        settings.policy,
+    );
+    let curve_seconds = t.elapsed().as_secs_f64();
+    let out = serde_json::json!({
+        "rows": batch.len(),
+        "nodes": tax.len(),
+        "depth": depth,
+        "logits_bytes": bytes,
+        "load_seconds": load_seconds,
+        "evaluate_seconds_median": median(times.clone()),
+        "evaluate_seconds_min": times.iter().copied().fold(f64::INFINITY, f64::min),
+        "evaluate_repeats": times.len(),
+        "curve_seconds": curve_seconds,
+        "curve_points": curve.len(),
+        "path_bytes_per_row": batch.paths().bytes_per_row(),
+        "peak_rss_bytes": peak_rss(),
+        "checksum": checksum,
+    });
+    Ok(serde_json::to_string_pretty(&out).map_err(|e| Failure::Other(e.into()))? + "\n")
+}
