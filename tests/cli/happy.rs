@@ -147,3 +147,82 @@ fn decode_and_curve_write_csv() {
         run.stdout
     );
 }
+
+/// np.savez / np.savez_compressed bundles (tests/fixtures/numpy, written by numpy) give the same
+/// metrics as the separate .npy files, with labels and objectness taken from the bundle.
+#[test]
+fn npz_bundles_evaluate_like_separate_files() {
+    let s = Scratch::new("npz");
+    let fixtures = concat!(env!("CARGO_MANIFEST_DIR"), "/../../tests/fixtures/numpy/");
+    s.write(
+        "t.csv",
+        b"id,parent,name\nb,a,B\na,,A\nc,a,C\nd,,D\ne,d,E\nf,b,F\ng,b,G\n",
+    );
+    for f in [
+        "bundle.npz",
+        "bundle-compressed.npz",
+        "logits-f64.npy",
+        "labels-int64.npy",
+        "labels-str.npy",
+        "objectness.npy",
+    ] {
+        s.write(
+            f,
+            &std::fs::read(format!("{fixtures}{f}")).expect("fixture"),
+        );
+    }
+    let run = |args: &[&str]| json(&hedgerow(&s.dir, args));
+    let base = [
+        "evaluate",
+        "--taxonomy",
+        "t.csv",
+        "--rule",
+        "conditional",
+        "--thresholds",
+        "0.6,0.4",
+        "--json",
+    ];
+    let mut separate = base.to_vec();
+    separate.extend([
+        "--logits",
+        "logits-f64.npy",
+        "--labels",
+        "labels-int64.npy",
+        "--objectness",
+        "objectness.npy",
+    ]);
+    let want = run(&separate);
+    assert_eq!(want["rows"], 12);
+    let mut strings = base.to_vec();
+    strings.extend([
+        "--logits",
+        "logits-f64.npy",
+        "--labels",
+        "labels-str.npy",
+        "--objectness",
+        "objectness.npy",
+    ]);
+    assert_eq!(run(&strings), want, "string labels");
+    for bundle in ["bundle.npz", "bundle-compressed.npz"] {
+        let mut args = base.to_vec();
+        args.extend(["--logits", bundle]);
+        assert_eq!(run(&args), want, "{bundle}");
+    }
+    // Without labels anywhere: a clear message, exit 2.
+    let out = hedgerow(
+        &s.dir,
+        &[
+            "evaluate",
+            "--taxonomy",
+            "t.csv",
+            "--logits",
+            "logits-f64.npy",
+        ],
+    );
+    assert_eq!(out.code, 2);
+    assert!(
+        out.stderr.contains("--labels: expected a labels file"),
+        "{}",
+        out.stderr
+    );
+}

@@ -3,6 +3,7 @@
 mod curve;
 mod harness;
 mod invariants;
+mod numpy_files;
 mod profile;
 mod rules;
 mod worked;

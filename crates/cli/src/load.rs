@@ -1,12 +1,12 @@
 //! Reading the input files and settings into a batch, collecting every problem with its place.
 
 use std::fs::File;
-use std::io::Read;
-use std::path::Path;
+use std::io::{Read, Seek, SeekFrom};
+use std::path::{Path, PathBuf};
 
 use hedgerow_core::{
-    Batch, Errors, Labels, LogitsReader, Objectness, Policy, Profile, Rule, Settings, Taxonomy,
-    Temperatures, Thresholds,
+    npz, Batch, ErrorKind, Errors, Labels, Location, LogitsReader, Objectness, Policy, Profile,
+    Rule, Settings, Taxonomy, Temperatures, Thresholds,
 };
 
 use crate::{Input, SettingArgs};
@@ -59,34 +59,36 @@ impl Loaded {
         let tax_name = display(&input.taxonomy);
         let taxonomy = Taxonomy::parse(&read(&input.taxonomy)?, &tax_name)?;
         let (settings, temperatures) = settings(&taxonomy, args)?;
+        let logits_name = display(&input.logits);
+        let bundle = Bundle::open(&input.logits, &logits_name)?;
 
         let mut problems = Vec::new();
-        let labels = match Labels::parse(&read(&input.labels)?, &display(&input.labels), &taxonomy)
-        {
-            Ok(l) => Some(l),
-            Err(e) => {
-                problems.extend(e.iter().map(|e| e.to_string()));
-                None
-            }
-        };
-        let objectness = match &input.objectness {
-            None => None,
-            Some(path) => match Objectness::parse(&read(path)?, &display(path)) {
-                Ok(o) => Some(o),
-                Err(e) => {
-                    problems.extend(e.iter().map(|e| e.to_string()));
-                    None
-                }
+        let labels = match (&input.labels, &bundle) {
+            (Some(path), _) => keep(&mut problems, Labels::parse(&read(path)?, &display(path), &taxonomy)),
+            (None, Some(b)) => match b.member_bytes("labels")? {
+                Some((name, bytes)) => keep(&mut problems, Labels::parse(&bytes, &name, &taxonomy)),
+                None => return Err(Failure::Input(vec![format!("--labels: expected a labels file, or a `labels` array in {logits_name} (it holds {})", b.keys())])),
             },
+            (None, None) => return Err(Failure::Input(vec!["--labels: expected a labels file (or an .npz bundle holding `labels` as --logits)".into()])),
         };
-        let logits_name = display(&input.logits);
-        let ingested = match stream_logits(&input.logits, &logits_name, &taxonomy, &temperatures)? {
-            Ok(i) => Some(i),
-            Err(e) => {
-                problems.extend(e.iter().map(|e| e.to_string()));
-                None
-            }
+        let objectness = match (&input.objectness, &bundle) {
+            (Some(path), _) => Some(keep(
+                &mut problems,
+                Objectness::parse(&read(path)?, &display(path)),
+            )),
+            (None, Some(b)) => match b.member_bytes("objectness")? {
+                Some((name, bytes)) => Some(keep(&mut problems, Objectness::parse(&bytes, &name))),
+                None => None,
+            },
+            (None, None) => None,
         };
+        let ingested = keep(
+            &mut problems,
+            match &bundle {
+                Some(b) => b.stream_logits(&taxonomy, &temperatures)?,
+                None => stream_logits(&input.logits, &logits_name, &taxonomy, &temperatures)?,
+            },
+        );
         if !problems.is_empty() {
             return Err(Failure::Input(problems));
         }
@@ -95,11 +97,15 @@ impl Loaded {
                 "inputs missing after loading"
             )));
         };
-        if input.objectness.is_some() && objectness.is_none() {
-            return Err(Failure::Other(anyhow::anyhow!(
-                "objectness missing after loading"
-            )));
-        }
+        let objectness = match objectness {
+            Some(Some(o)) => Some(o),
+            Some(None) => {
+                return Err(Failure::Other(anyhow::anyhow!(
+                    "objectness missing after loading"
+                )))
+            }
+            None => None,
+        };
         let batch = Batch::new(
             &taxonomy,
             &logits_name,
@@ -114,6 +120,149 @@ impl Loaded {
             settings,
         })
     }
+}
+
+/// The value, or its problems noted so every input's problems are reported together.
+fn keep<T>(problems: &mut Vec<String>, r: hedgerow_core::Result<T>) -> Option<T> {
+    match r {
+        Ok(v) => Some(v),
+        Err(e) => {
+            problems.extend(e.iter().map(|e| e.to_string()));
+            None
+        }
+    }
+}
+
+fn input_error(name: &str, kind: ErrorKind) -> Failure {
+    Failure::from(Errors::from(hedgerow_core::Error::new(
+        name,
+        Location::default(),
+        kind,
+    )))
+}
+
+/// An `.npz` bundle given as `--logits`: its directory, read from the end of the file.
+struct Bundle {
+    path: PathBuf,
+    name: String,
+    members: Vec<npz::Member>,
+}
+
+impl Bundle {
+    /// `Some` if the file is a zip archive (np.savez writes `PK\x03\x04` first).
+    fn open(path: &Path, name: &str) -> Result<Option<Self>, Failure> {
+        let cannot = |e: std::io::Error| Failure::Input(vec![format!("{name}: cannot read: {e}")]);
+        let mut file = File::open(path).map_err(cannot)?;
+        let mut magic = [0u8; 4];
+        let n = file.read(&mut magic).map_err(cannot)?;
+        if n < 4 || &magic != b"PK\x03\x04" {
+            return Ok(None);
+        }
+        let len = file.metadata().map_err(cannot)?.len();
+        let tail_len = len.min(npz::TAIL_BYTES);
+        let tail = read_at(&mut file, len - tail_len, tail_len).map_err(cannot)?;
+        let (offset, size) = npz::directory_range(&tail, len).map_err(|k| input_error(name, k))?;
+        let dir = read_at(&mut file, offset, size).map_err(cannot)?;
+        let members = npz::parse_directory(&dir).map_err(|k| input_error(name, k))?;
+        Ok(Some(Bundle {
+            path: path.to_path_buf(),
+            name: name.to_string(),
+            members,
+        }))
+    }
+
+    fn keys(&self) -> String {
+        self.members
+            .iter()
+            .map(|m| format!("`{}`", m.key()))
+            .collect::<Vec<_>>()
+            .join(", ")
+    }
+
+    fn member(&self, key: &str) -> Option<&npz::Member> {
+        self.members.iter().find(|m| m.key() == key)
+    }
+
+    /// Where a member's compressed data starts.
+    fn data_start(&self, file: &mut File, m: &npz::Member) -> Result<u64, Failure> {
+        let local = read_at(file, m.local_header, npz::LOCAL_HEADER_BYTES)
+            .map_err(|e| Failure::Input(vec![format!("{}: cannot read: {e}", self.name)]))?;
+        npz::data_offset(m, &local).map_err(|k| input_error(&self.name, k))
+    }
+
+    /// A small member read whole: `(display name, bytes)`.
+    fn member_bytes(&self, key: &str) -> Result<Option<(String, Vec<u8>)>, Failure> {
+        let Some(m) = self.member(key) else {
+            return Ok(None);
+        };
+        let name = format!("{}:{key}", self.name);
+        let cannot =
+            |e: std::io::Error| Failure::Input(vec![format!("{}: cannot read: {e}", self.name)]);
+        let mut file = File::open(&self.path).map_err(cannot)?;
+        let start = self.data_start(&mut file, m)?;
+        let data = read_at(&mut file, start, m.compressed).map_err(cannot)?;
+        let mut out = Vec::new();
+        let mut flow = npz::Inflow::new(m).map_err(|k| input_error(&name, k))?;
+        flow.feed(
+            &data,
+            &mut |c: &[u8]| -> Result<(), ErrorKind> {
+                out.extend_from_slice(c);
+                Ok(())
+            },
+            |k| k,
+        )
+        .map_err(|k| input_error(&name, k))?;
+        flow.finish().map_err(|k| input_error(&name, k))?;
+        Ok(Some((name, out)))
+    }
+
+    /// Stream the `logits` member through the inflater into greedy paths.
+    fn stream_logits(
+        &self,
+        tax: &Taxonomy,
+        temps: &Temperatures,
+    ) -> Result<hedgerow_core::Result<hedgerow_core::Ingested>, Failure> {
+        let Some(m) = self.member("logits") else {
+            return Err(Failure::Input(vec![format!(
+                "{}: expected a `logits` array in the bundle, found {}",
+                self.name,
+                self.keys()
+            )]));
+        };
+        let name = format!("{}:logits", self.name);
+        let cannot =
+            |e: std::io::Error| Failure::Input(vec![format!("{}: cannot read: {e}", self.name)]);
+        let mut file = File::open(&self.path).map_err(cannot)?;
+        let start = self.data_start(&mut file, m)?;
+        file.seek(SeekFrom::Start(start)).map_err(cannot)?;
+        let mut reader = LogitsReader::new(&name, tax, temps);
+        let mut flow = npz::Inflow::new(m).map_err(|k| input_error(&name, k))?;
+        let wrap = |k| Errors::from(hedgerow_core::Error::new(&name, Location::default(), k));
+        let mut left = m.compressed;
+        let mut buf = vec![0u8; CHUNK];
+        while left > 0 {
+            let want = (left as usize).min(CHUNK);
+            let n = file.read(&mut buf[..want]).map_err(cannot)?;
+            if n == 0 {
+                break;
+            }
+            left -= n as u64;
+            if let Err(e) = flow.feed(&buf[..n], &mut |c: &[u8]| reader.feed(tax, c), wrap) {
+                return Ok(Err(e));
+            }
+        }
+        if let Err(k) = flow.finish() {
+            return Ok(Err(wrap(k)));
+        }
+        Ok(reader.finish(tax))
+    }
+}
+
+fn read_at(file: &mut File, offset: u64, len: u64) -> std::io::Result<Vec<u8>> {
+    file.seek(SeekFrom::Start(offset))?;
+    let mut out = Vec::new();
+    file.take(len).read_to_end(&mut out)?;
+    Ok(out)
 }
 
 /// Read the logits file chunk by chunk into greedy paths.

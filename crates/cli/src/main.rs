@@ -83,13 +83,15 @@ pub struct Input {
     /// Taxonomy: CSV with `id,parent[,name]` or a JSON array of {"id","parent","name"}.
     #[arg(long)]
     pub taxonomy: PathBuf,
-    /// Logits: .npy of shape (rows, nodes), float16/32/64.
+    /// Logits: .npy of shape (rows, nodes), float16/32/64; or an .npz bundle (np.savez or
+    /// np.savez_compressed) holding `logits` and optionally `labels` and `objectness`.
     #[arg(long)]
     pub logits: PathBuf,
-    /// Labels: CSV with a `label` column (node id, empty = background) or .npy of column indices (-1 = background).
+    /// Labels: CSV with a `label` column (node id, empty = background) or .npy of column
+    /// indices (-1 = background) or of id strings. Optional when the bundle holds `labels`.
     #[arg(long)]
-    pub labels: PathBuf,
-    /// Objectness: .npy of shape (rows,), probabilities in [0, 1].
+    pub labels: Option<PathBuf>,
+    /// Objectness: .npy of shape (rows,), probabilities in [0, 1] (or `objectness` in the bundle).
     #[arg(long)]
     pub objectness: Option<PathBuf>,
 }

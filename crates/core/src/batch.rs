@@ -97,13 +97,42 @@ impl Labels {
     pub fn from_npy(bytes: &[u8], file: &str, tax: &Taxonomy) -> Result<Self> {
         let array = npy::read_array(bytes).map_err(|k| Error::new(file, Location::default(), k))?;
         let h = &array.header;
+        if let npy::Scalar::Str(_) = h.dtype.scalar {
+            check_column_shape(file, &h.shape)?;
+            let mut errors = Collector::default();
+            let nodes = h
+                .dtype
+                .decode_strings(array.data)
+                .into_iter()
+                .enumerate()
+                .map(|(r, id)| {
+                    if id.is_empty() {
+                        NONE
+                    } else if let Some(v) = tax.lookup(&id) {
+                        v
+                    } else {
+                        errors.push(Error::new(
+                            file,
+                            Location::row(r as u64),
+                            ErrorKind::UnknownLabel { found: id },
+                        ));
+                        NONE
+                    }
+                })
+                .collect();
+            errors.finish(file)?;
+            return Ok(Labels {
+                file: file.to_string(),
+                nodes,
+            });
+        }
         if !h.dtype.scalar.is_integer() {
             return Err(Error::new(
                 file,
                 Location::default(),
                 ErrorKind::Dtype {
                     found: h.dtype.name().into(),
-                    expected: "an integer dtype (column index, -1 for background)",
+                    expected: "integers (column index, -1 for background) or strings (node ids, empty for background)",
                 },
             )
             .into());

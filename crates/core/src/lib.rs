@@ -39,6 +39,7 @@ pub mod curve;
 pub mod error;
 pub mod eval;
 pub mod npy;
+pub mod npz;
 pub mod paths;
 pub mod profile;
 pub mod settings;

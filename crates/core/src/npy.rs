@@ -20,6 +20,8 @@ pub enum Scalar {
     U32,
     U64,
     Bool,
+    /// Fixed-width unicode strings of this many characters (numpy `<U…`, UTF-32).
+    Str(u32),
 }
 
 impl Scalar {
@@ -29,13 +31,14 @@ impl Scalar {
             Scalar::F16 | Scalar::I16 | Scalar::U16 => 2,
             Scalar::F32 | Scalar::I32 | Scalar::U32 => 4,
             Scalar::F64 | Scalar::I64 | Scalar::U64 => 8,
+            Scalar::Str(n) => 4 * n as usize,
         }
     }
     pub fn is_float(self) -> bool {
         matches!(self, Scalar::F16 | Scalar::F32 | Scalar::F64)
     }
     pub fn is_integer(self) -> bool {
-        !self.is_float() && self != Scalar::Bool
+        !self.is_float() && !matches!(self, Scalar::Bool | Scalar::Str(_))
     }
 }
 
@@ -62,6 +65,7 @@ impl Dtype {
             Scalar::U32 => "uint32",
             Scalar::U64 => "uint64",
             Scalar::Bool => "bool",
+            Scalar::Str(_) => "str",
         }
     }
 
@@ -100,7 +104,33 @@ impl Dtype {
             Scalar::U16 => each!(2, |a| u16::from_le_bytes(a) as f64),
             Scalar::U32 => each!(4, |a| u32::from_le_bytes(a) as f64),
             Scalar::U64 => each!(8, |a| u64::from_le_bytes(a) as f64),
+            Scalar::Str(_) => out.extend(std::iter::repeat_n(
+                f64::NAN,
+                bytes.len() / self.scalar.size().max(1),
+            )),
         }
+    }
+
+    /// Decode fixed-width strings (trailing NULs removed; invalid code points become U+FFFD).
+    pub fn decode_strings(&self, bytes: &[u8]) -> Vec<String> {
+        let size = self.scalar.size().max(1);
+        bytes
+            .chunks_exact(size)
+            .map(|item| {
+                item.chunks_exact(4)
+                    .map(|c| {
+                        let c: [u8; 4] = [c[0], c[1], c[2], c[3]];
+                        if self.big_endian {
+                            u32::from_be_bytes(c)
+                        } else {
+                            u32::from_le_bytes(c)
+                        }
+                    })
+                    .take_while(|&c| c != 0)
+                    .map(|c| char::from_u32(c).unwrap_or('\u{fffd}'))
+                    .collect()
+            })
+            .collect()
     }
 
     /// Decode integers exactly (for label arrays).
@@ -345,7 +375,10 @@ fn parse_descr(descr: &str) -> Result<Dtype, ErrorKind> {
         "u4" | "I" => Scalar::U32,
         "u8" | "Q" | "L" => Scalar::U64,
         "b1" | "?" => Scalar::Bool,
-        _ => return Err(unknown()),
+        _ => match rest.strip_prefix('U').and_then(|n| n.parse::<u32>().ok()) {
+            Some(n) if n > 0 => Scalar::Str(n),
+            _ => return Err(unknown()),
+        },
     };
     Ok(Dtype {
         scalar,
@@ -552,7 +585,7 @@ mod tests {
                 big_endian: true
             })
         );
-        assert!(parse_descr("<U10").is_err());
+        assert_eq!(parse_descr("<U10").map(|d| d.scalar), Ok(Scalar::Str(10)));
         assert!(parse_descr("<c16").is_err());
     }
 }
