@@ -76,10 +76,9 @@ impl Loaded {
                 &mut problems,
                 Objectness::parse(&read(path)?, &display(path)),
             )),
-            (None, Some(b)) => match b.member_bytes("objectness")? {
-                Some((name, bytes)) => Some(keep(&mut problems, Objectness::parse(&bytes, &name))),
-                None => None,
-            },
+            (None, Some(b)) => b
+                .member_bytes("objectness")?
+                .map(|(name, bytes)| keep(&mut problems, Objectness::parse(&bytes, &name))),
             (None, None) => None,
         };
         let ingested = keep(
