@@ -3,7 +3,7 @@
 //! conditional probability at each depth (struct of arrays).
 
 use crate::error::{Collector, Error, ErrorKind, Errors, Location, Result};
-use crate::npy::{self, Header};
+use crate::npy::{self, Dtype, Header, Scalar};
 use crate::settings::Temperatures;
 use crate::taxonomy::Taxonomy;
 
@@ -78,6 +78,19 @@ pub fn descend(
     cond: &mut [f32],
     scratch: &mut Vec<f64>,
 ) -> u32 {
+    descend_with(tax, temps, |c| logits[c], cond, scratch)
+}
+
+/// [`descend`] reading each logit through `logit(column)`, so a row can stay in its file
+/// encoding and only the values on the path's sibling groups are decoded.
+#[inline]
+pub fn descend_with(
+    tax: &Taxonomy,
+    temps: &[f64],
+    logit: impl Fn(usize) -> f64,
+    cond: &mut [f32],
+    scratch: &mut Vec<f64>,
+) -> u32 {
     let mut v = tax.root();
     let mut d = 0;
     loop {
@@ -91,7 +104,7 @@ pub fn descend(
         } else {
             let t = temps.get(d - 1).copied().unwrap_or(1.0);
             scratch.clear();
-            scratch.extend(children.iter().map(|&c| logits[c as usize] / t));
+            scratch.extend(children.iter().map(|&c| logit(c as usize) / t));
             let max = scratch.iter().copied().fold(f64::NEG_INFINITY, f64::max);
             let mut sum = 0.0;
             for z in scratch.iter_mut() {
@@ -113,6 +126,31 @@ pub fn descend(
             *slot = p as f32;
         }
         v = best;
+    }
+}
+
+/// Whether every float in `row` is finite, checked on the raw bits (exponent not all ones).
+fn all_finite(dtype: Dtype, row: &[u8]) -> bool {
+    macro_rules! scan {
+        ($n:literal, $ty:ty, $mask:expr) => {{
+            let mut bad = false;
+            for c in row.chunks_exact($n) {
+                let mut a = [0u8; $n];
+                a.copy_from_slice(c);
+                let bits = if dtype.big_endian {
+                    <$ty>::from_be_bytes(a)
+                } else {
+                    <$ty>::from_le_bytes(a)
+                };
+                bad |= bits & $mask == $mask;
+            }
+            !bad
+        }};
+    }
+    match dtype.scalar {
+        Scalar::F16 => scan!(2, u16, 0x7C00u16),
+        Scalar::F32 => scan!(4, u32, 0x7F80_0000u32),
+        _ => scan!(8, u64, 0x7FF0_0000_0000_0000u64),
     }
 }
 
@@ -279,8 +317,7 @@ impl LogitsReader {
             }
             let row = std::mem::take(&mut self.carry);
             if self.rows_done < rows_total {
-                dtype.decode_into(&row, &mut self.values);
-                self.push_row(tax);
+                self.push_row(tax, dtype, &row);
             }
         }
         let mut rows = data.chunks_exact(rb);
@@ -288,18 +325,19 @@ impl LogitsReader {
             if self.rows_done >= rows_total {
                 break;
             }
-            dtype.decode_into(row, &mut self.values);
-            self.push_row(tax);
+            self.push_row(tax, dtype, row);
         }
         if self.rows_done < rows_total {
             self.carry.extend_from_slice(rows.remainder());
         }
     }
 
-    fn push_row(&mut self, tax: &Taxonomy) {
+    /// Turn one row, still in its file encoding, into its path.
+    fn push_row(&mut self, tax: &Taxonomy, dtype: Dtype, row: &[u8]) {
         let r = self.rows_done;
         self.rows_done += 1;
-        if self.values.iter().any(|v| !v.is_finite()) {
+        if !all_finite(dtype, row) {
+            dtype.decode_into(row, &mut self.values);
             for (c, v) in self.values.iter().enumerate() {
                 if !v.is_finite() {
                     let at = Location::row(r).column(format!("{c} (`{}`)", tax.id(c as u32)));
@@ -320,13 +358,34 @@ impl LogitsReader {
         }
         let start = self.paths.cond.len();
         self.paths.cond.resize(start + self.paths.width, PAD);
-        let leaf = descend(
-            tax,
-            &self.temps,
-            &self.values,
-            &mut self.paths.cond[start..],
-            &mut self.scratch,
-        );
+        let cond = &mut self.paths.cond[start..];
+        let scratch = &mut self.scratch;
+        let temps = &self.temps;
+        macro_rules! go {
+            ($n:literal, $conv:expr) => {{
+                let conv = $conv;
+                let big = dtype.big_endian;
+                descend_with(
+                    tax,
+                    temps,
+                    |c| {
+                        let mut a = [0u8; $n];
+                        a.copy_from_slice(&row[c * $n..c * $n + $n]);
+                        if big {
+                            a.reverse();
+                        }
+                        conv(a)
+                    },
+                    cond,
+                    scratch,
+                )
+            }};
+        }
+        let leaf = match dtype.scalar {
+            Scalar::F16 => go!(2, |a: [u8; 2]| half::f16::from_le_bytes(a).to_f64()),
+            Scalar::F32 => go!(4, |a: [u8; 4]| f32::from_le_bytes(a) as f64),
+            _ => go!(8, f64::from_le_bytes),
+        };
         self.paths.leaf.push(leaf);
     }
 
@@ -374,8 +433,7 @@ impl LogitsReader {
                     let at = (c * rows + r) * size;
                     row[c * size..(c + 1) * size].copy_from_slice(&buf[at..at + size]);
                 }
-                header.dtype.decode_into(&row, &mut self.values);
-                self.push_row(tax);
+                self.push_row(tax, header.dtype, &row);
             }
         }
         let file = self.file.clone();
