@@ -59,3 +59,42 @@ fn curve_matches_brute_force_at_every_point() {
         }
     }
 }
+
+/// One depth's sweep equals a fresh evaluation just above each of its breakpoints, starts at
+/// t = 0, and passes through the current settings.
+#[test]
+fn depth_sweep_matches_brute_force() {
+    let tax = taxonomy(TREE);
+    let (rows, labels, obj) = sample_rows(80);
+    let b = batch(&tax, &rows, &labels, Some(&obj), &[]);
+    for rule in [Rule::Cumulative, Rule::Conditional] {
+        for depth in 1..=3 {
+            let base = settings(rule, &[0.4, 0.55, 0.3], 0.2, Policy::Credit);
+            let points = hedgerow_core::depth_sweep(&tax, &b, &base, depth);
+            assert_eq!(points[0].threshold, 0.0);
+            let at = |t: f64| {
+                let mut s = base.clone();
+                s.thresholds.depths[depth - 1] = t;
+                evaluate(&tax, &b, &s)
+            };
+            for (i, p) in points.iter().enumerate() {
+                let next = points.get(i + 1).map_or(1.0, |q| q.threshold);
+                let t = if i == 0 {
+                    0.0
+                } else {
+                    (p.threshold + next) / 2.0
+                };
+                let m = at(t);
+                assert_eq!(
+                    (p.correct, p.unverifiable, p.wrong),
+                    (m.correct, m.unverifiable, m.wrong),
+                    "{rule:?} d{depth} t={t}"
+                );
+                assert!(
+                    (p.specificity.unwrap_or(0.0) - m.specificity.unwrap_or(0.0)).abs() < 1e-12
+                );
+            }
+            assert!(points.len() > 3, "{rule:?} d{depth}: {}", points.len());
+        }
+    }
+}

@@ -10,8 +10,8 @@ use std::collections::BTreeMap;
 use std::rc::Rc;
 
 use hedgerow_core::{
-    evaluate, npy, CurveIndex, Batch, CurvePoint, Errors, Ingested, Labels, Metrics, Objectness,
-    Policy, Profile, Rule, Settings, Taxonomy, Temperatures,
+    depth_sweep, evaluate, npy, Batch, CurveIndex, CurvePoint, Errors, Ingested, Labels, Metrics,
+    Objectness, Policy, Profile, Rule, Settings, Taxonomy, Temperatures,
 };
 use serde::{Deserialize, Serialize};
 
@@ -217,9 +217,6 @@ struct SweepKey {
     policy: Policy,
     thresholds: Vec<u64>,
 }
-
-/// Points on the sweep of one depth's threshold from 0 to 1.
-const SWEEP_STEPS: usize = 50;
 
 impl Board {
     pub fn new() -> Self {
@@ -647,7 +644,9 @@ impl Board {
             // Breakpoints are sorted once per (batch, rule); the object threshold and the
             // policy only re-sweep them.
             let index = match &self.curve_index {
-                Some((g, rule, index)) if *g == self.generation && *rule == self.settings.rule => index.clone(),
+                Some((g, rule, index)) if *g == self.generation && *rule == self.settings.rule => {
+                    index.clone()
+                }
                 _ => {
                     let index = Rc::new(CurveIndex::new(&a.taxonomy, &a.batch, self.settings.rule));
                     self.curve_index = Some((self.generation, self.settings.rule, index.clone()));
@@ -677,18 +676,14 @@ impl Board {
             thresholds: others,
         };
         if self.sweep_key.as_ref() != Some(&key) {
-            let mut s = self.settings.clone();
-            let points = (0..=SWEEP_STEPS)
-                .filter_map(|i| {
-                    let t = i as f64 / SWEEP_STEPS as f64;
-                    if let Some(x) = s.thresholds.depths.get_mut(depth - 1) {
-                        *x = t;
-                    }
-                    let m = evaluate(&a.taxonomy, &a.batch, &s);
+            // Exact: one breakpoint per row that reaches the depth (not a sampled grid).
+            let points = depth_sweep(&a.taxonomy, &a.batch, &self.settings, depth)
+                .into_iter()
+                .filter_map(|p| {
                     Some(TradePoint {
-                        threshold: t,
-                        specificity: m.specificity?,
-                        precision: m.precision?,
+                        threshold: p.threshold,
+                        specificity: p.specificity?,
+                        precision: p.precision?,
                     })
                 })
                 .collect();

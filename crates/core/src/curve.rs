@@ -10,8 +10,8 @@
 use serde::{Deserialize, Serialize};
 
 use crate::batch::Batch;
-use crate::eval::{outcome_at, precision, Outcome};
-use crate::settings::{Policy, Rule};
+use crate::eval::{outcome_at, precision, stop_depth, Outcome};
+use crate::settings::{Policy, Rule, Settings};
 use crate::taxonomy::Taxonomy;
 
 /// One operating point: what thresholds in (next point's threshold, `threshold`] give.
@@ -206,4 +206,98 @@ impl CurveIndex {
 /// Whether a point already describes the running state (only rows that do not predict moved).
 fn same_gain(last: &CurvePoint, run: &Running, predicting: u64) -> bool {
     predicting == 0 || last.specificity == Some(run.gain / predicting as f64)
+}
+
+/// The path of the operating point as one depth's threshold moves from 0 to 1, every other
+/// threshold held: exact, from one breakpoint per row.
+///
+/// A row that reaches depth `depth − 1` tests its path's node at `depth` once: at thresholds up
+/// to its value there (the rule's quantity) it descends to where the other thresholds stop it
+/// (`high`), above it it stops at `depth − 1` (`low`). Rows that never reach `depth − 1`, or
+/// whose node there has its own override, do not move. The first point is t = 0; each further
+/// point holds for thresholds just above its `threshold`. A node with a per-node override keeps
+/// it.
+pub fn depth_sweep(
+    tax: &Taxonomy,
+    batch: &Batch,
+    settings: &Settings,
+    depth: usize,
+) -> Vec<CurvePoint> {
+    let base = settings.thresholds.resolve(tax);
+    let overridden: std::collections::HashSet<u32> =
+        settings.thresholds.nodes.iter().map(|&(v, _)| v).collect();
+    let moved = |value: f64| {
+        let mut t = base.clone();
+        for v in 0..tax.len() as u32 {
+            if tax.depth(v) == depth && !overridden.contains(&v) {
+                t[v as usize] = value;
+            }
+        }
+        t
+    };
+    let (pass, fail) = (moved(f64::NEG_INFINITY), moved(f64::INFINITY));
+    let mut run = Running::default();
+    let mut predicting = 0u64;
+    // (breakpoint, row, low, high)
+    let mut moves: Vec<(f64, u32, u8, u8)> = Vec::new();
+    for r in 0..batch.len() {
+        let (Some(high), Some(low)) = (
+            stop_depth(tax, batch, settings.rule, &pass, r),
+            stop_depth(tax, batch, settings.rule, &fail, r),
+        ) else {
+            continue;
+        };
+        predicting += 1;
+        let leaf = batch.paths().leaf(r);
+        run.add(outcome_at(batch, r, high), tax.gain_at(leaf, high), 1);
+        if high != low {
+            let cond = batch.paths().cond(r);
+            let c = cond[depth - 1] as f64;
+            let b = match settings.rule {
+                Rule::Conditional => c,
+                Rule::Cumulative => {
+                    (0..depth).fold(batch.root_probability(r), |p, d| p * cond[d] as f64)
+                }
+            };
+            moves.push((b, r as u32, low as u8, high as u8));
+        }
+    }
+    moves.sort_unstable_by(|a, b| a.0.total_cmp(&b.0));
+    let policy = settings.policy;
+    let point = |t: f64, run: &Running| {
+        let (c, u, w) = (
+            run.correct.max(0) as u64,
+            run.unverifiable.max(0) as u64,
+            run.wrong.max(0) as u64,
+        );
+        let n = predicting as f64;
+        CurvePoint {
+            threshold: t,
+            predictions: predicting,
+            correct: c,
+            unverifiable: u,
+            wrong: w,
+            precision: precision(policy, c, u, w),
+            specificity: (predicting > 0).then(|| run.gain / n),
+            reward: (predicting > 0).then(|| run.reward / n),
+        }
+    };
+    let mut out = vec![point(0.0, &run)];
+    let mut i = 0;
+    while i < moves.len() {
+        let b = moves[i].0;
+        while i < moves.len() && moves[i].0 == b {
+            let (_, r, low, high) = moves[i];
+            let (r, low, high) = (r as usize, low as usize, high as usize);
+            let leaf = batch.paths().leaf(r);
+            run.add(outcome_at(batch, r, high), tax.gain_at(leaf, high), -1);
+            run.add(outcome_at(batch, r, low), tax.gain_at(leaf, low), 1);
+            i += 1;
+        }
+        if b >= 1.0 {
+            break;
+        }
+        out.push(point(b, &run));
+    }
+    out
 }

@@ -46,7 +46,7 @@ pub mod settings;
 pub mod taxonomy;
 
 pub use batch::{Batch, Labels, Objectness};
-pub use curve::{exact_curve, CurveIndex, CurvePoint};
+pub use curve::{depth_sweep, exact_curve, CurveIndex, CurvePoint};
 pub use error::{Error, ErrorKind, Errors, Location, Result};
 pub use eval::{decode_row, evaluate, Metrics, Outcome, RowDecode};
 pub use paths::{Ingested, LogitsReader, Paths};
