@@ -98,3 +98,33 @@ fn depth_sweep_matches_brute_force() {
         }
     }
 }
+
+/// Dragging one depth re-scores only the rows that flip, and equals a full evaluation bit for
+/// bit at every stop, back and forth, for both rules and with a per-node override present.
+#[test]
+fn depth_drag_equals_full_evaluation() {
+    let tax = taxonomy(TREE);
+    let (rows, labels, obj) = sample_rows(120);
+    let b = batch(&tax, &rows, &labels, Some(&obj), &[]);
+    for rule in [Rule::Cumulative, Rule::Conditional] {
+        for depth in 1..=3 {
+            for with_override in [false, true] {
+                let mut base = settings(rule, &[0.45, 0.5, 0.35], 0.25, Policy::Exclude);
+                if with_override {
+                    base.thresholds.nodes = vec![(tax.lookup("g").expect("g"), 0.8)];
+                }
+                let mut drag = hedgerow_core::DepthDrag::new(&tax, &b, &base, depth);
+                for t in [0.0, 0.9, 0.2, 0.2, 1.0, 0.61, 0.05, 0.5, 0.35] {
+                    let got = drag.set(&tax, &b, t);
+                    let mut s = base.clone();
+                    s.thresholds.depths[depth - 1] = t;
+                    assert_eq!(
+                        got,
+                        evaluate(&tax, &b, &s),
+                        "{rule:?} d{depth} t={t} override={with_override}"
+                    );
+                }
+            }
+        }
+    }
+}

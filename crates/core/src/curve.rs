@@ -10,7 +10,7 @@
 use serde::{Deserialize, Serialize};
 
 use crate::batch::Batch;
-use crate::eval::{outcome_at, precision, stop_depth, Outcome};
+use crate::eval::{outcome_at, precision, Outcome};
 use crate::settings::{Policy, Rule, Settings};
 use crate::taxonomy::Taxonomy;
 
@@ -37,6 +37,26 @@ struct Running {
 }
 
 impl Running {
+    /// The operating point these sums describe, at threshold `t`.
+    fn point(&self, t: f64, predicting: u64, policy: Policy) -> CurvePoint {
+        let (c, u, w) = (
+            self.correct.max(0) as u64,
+            self.unverifiable.max(0) as u64,
+            self.wrong.max(0) as u64,
+        );
+        let n = predicting as f64;
+        CurvePoint {
+            threshold: t,
+            predictions: predicting,
+            correct: c,
+            unverifiable: u,
+            wrong: w,
+            precision: precision(policy, c, u, w),
+            specificity: (predicting > 0).then(|| self.gain / n),
+            reward: (predicting > 0).then(|| self.reward / n),
+        }
+    }
+
     fn add(&mut self, outcome: Outcome, gain: f64, sign: i64) {
         let s = sign as f64;
         self.gain += s * gain;
@@ -142,24 +162,6 @@ impl CurveIndex {
             predicting += 1;
             run.add(outcome_at(batch, r, 0), 0.0, 1);
         }
-        let point = |t: f64, run: &Running| {
-            let (c, u, w) = (
-                run.correct.max(0) as u64,
-                run.unverifiable.max(0) as u64,
-                run.wrong.max(0) as u64,
-            );
-            let n = predicting as f64;
-            CurvePoint {
-                threshold: t,
-                predictions: predicting,
-                correct: c,
-                unverifiable: u,
-                wrong: w,
-                precision: precision(policy, c, u, w),
-                specificity: (predicting > 0).then(|| run.gain / n),
-                reward: (predicting > 0).then(|| run.reward / n),
-            }
-        };
         let mut apply = |e: &Event, run: &mut Running| {
             let (r, d) = (e.row as usize, e.depth as usize);
             if !predicts[r] {
@@ -178,7 +180,7 @@ impl CurveIndex {
             apply(&self.events[i], &mut run);
             i += 1;
         }
-        out.push(point(1.0, &run));
+        out.push(run.point(1.0, predicting, policy));
         while i < self.events.len() {
             let key = self.events[i].key;
             while i < self.events.len() && self.events[i].key == key {
@@ -196,7 +198,7 @@ impl CurveIndex {
                             run.wrong as u64,
                         )
                         && same_gain(last, &run, predicting) => {}
-                _ => out.push(point(t, &run)),
+                _ => out.push(run.point(t, predicting, policy)),
             }
         }
         out
@@ -223,72 +225,37 @@ pub fn depth_sweep(
     settings: &Settings,
     depth: usize,
 ) -> Vec<CurvePoint> {
-    let base = settings.thresholds.resolve(tax);
-    let overridden: std::collections::HashSet<u32> =
-        settings.thresholds.nodes.iter().map(|&(v, _)| v).collect();
-    let moved = |value: f64| {
-        let mut t = base.clone();
-        for v in 0..tax.len() as u32 {
-            if tax.depth(v) == depth && !overridden.contains(&v) {
-                t[v as usize] = value;
-            }
-        }
-        t
-    };
-    let (pass, fail) = (moved(f64::NEG_INFINITY), moved(f64::INFINITY));
+    crate::drag::DepthDrag::new(tax, batch, settings, depth).sweep(tax, batch)
+}
+
+/// Walk the moves of one depth from threshold 0 upwards (see [`depth_sweep`]).
+pub(crate) fn sweep_moves(
+    tax: &Taxonomy,
+    batch: &Batch,
+    policy: Policy,
+    moves: &[crate::drag::Move],
+    high: &[Option<u8>],
+) -> Vec<CurvePoint> {
     let mut run = Running::default();
     let mut predicting = 0u64;
-    // (breakpoint, row, low, high)
-    let mut moves: Vec<(f64, u32, u8, u8)> = Vec::new();
-    for r in 0..batch.len() {
-        let (Some(high), Some(low)) = (
-            stop_depth(tax, batch, settings.rule, &pass, r),
-            stop_depth(tax, batch, settings.rule, &fail, r),
-        ) else {
-            continue;
-        };
-        predicting += 1;
-        let leaf = batch.paths().leaf(r);
-        run.add(outcome_at(batch, r, high), tax.gain_at(leaf, high), 1);
-        if high != low {
-            let cond = batch.paths().cond(r);
-            let c = cond[depth - 1] as f64;
-            let b = match settings.rule {
-                Rule::Conditional => c,
-                Rule::Cumulative => {
-                    (0..depth).fold(batch.root_probability(r), |p, d| p * cond[d] as f64)
-                }
-            };
-            moves.push((b, r as u32, low as u8, high as u8));
+    for (r, h) in high.iter().enumerate() {
+        if let Some(h) = h {
+            predicting += 1;
+            let s = *h as usize;
+            run.add(
+                outcome_at(batch, r, s),
+                tax.gain_at(batch.paths().leaf(r), s),
+                1,
+            );
         }
     }
-    moves.sort_unstable_by(|a, b| a.0.total_cmp(&b.0));
-    let policy = settings.policy;
-    let point = |t: f64, run: &Running| {
-        let (c, u, w) = (
-            run.correct.max(0) as u64,
-            run.unverifiable.max(0) as u64,
-            run.wrong.max(0) as u64,
-        );
-        let n = predicting as f64;
-        CurvePoint {
-            threshold: t,
-            predictions: predicting,
-            correct: c,
-            unverifiable: u,
-            wrong: w,
-            precision: precision(policy, c, u, w),
-            specificity: (predicting > 0).then(|| run.gain / n),
-            reward: (predicting > 0).then(|| run.reward / n),
-        }
-    };
-    let mut out = vec![point(0.0, &run)];
+    let mut out = vec![run.point(0.0, predicting, policy)];
     let mut i = 0;
     while i < moves.len() {
-        let b = moves[i].0;
-        while i < moves.len() && moves[i].0 == b {
-            let (_, r, low, high) = moves[i];
-            let (r, low, high) = (r as usize, low as usize, high as usize);
+        let b = moves[i].at;
+        while i < moves.len() && moves[i].at == b {
+            let m = moves[i];
+            let (r, low, high) = (m.row as usize, m.low as usize, m.high as usize);
             let leaf = batch.paths().leaf(r);
             run.add(outcome_at(batch, r, high), tax.gain_at(leaf, high), -1);
             run.add(outcome_at(batch, r, low), tax.gain_at(leaf, low), 1);
@@ -297,7 +264,7 @@ pub fn depth_sweep(
         if b >= 1.0 {
             break;
         }
-        out.push(point(b, &run));
+        out.push(run.point(b, predicting, policy));
     }
     out
 }

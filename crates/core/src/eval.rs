@@ -147,18 +147,69 @@ pub(crate) fn outcome_at(batch: &Batch, r: usize, s: usize) -> Outcome {
     }
 }
 
-/// Running sums of one evaluation, before they become ratios.
+/// Running sums of one evaluation, before they become ratios. All integers: information gain
+/// is summed at the end from per-node counts (in node order), so any way of reaching the same
+/// decisions (a full pass, or moving only the rows that flip) gives bit-identical metrics.
 #[derive(Debug, Clone, Default)]
-struct Sums {
+pub(crate) struct Sums {
     stop_count: Vec<OutcomeCount>,
-    abstained: u64,
-    false_alarms: u64,
-    gain: f64,
-    reward: f64,
+    pub(crate) abstained: u64,
+    pub(crate) false_alarms: u64,
+    /// Predictions per predicted node (index `len()` is the root).
+    predicted_at: Vec<u64>,
+    /// Correct predictions per predicted node.
+    correct_at: Vec<u64>,
     h_inter: u64,
     h_pred: u64,
     severity: u64,
     severity_n: u64,
+}
+
+impl Sums {
+    pub(crate) fn new(tax: &Taxonomy, levels: usize) -> Self {
+        Sums {
+            stop_count: vec![OutcomeCount::default(); levels],
+            predicted_at: vec![0; tax.len() + 1],
+            correct_at: vec![0; tax.len() + 1],
+            ..Sums::default()
+        }
+    }
+
+    /// Add (`add`) or remove row `r`'s prediction at stop depth `s`.
+    pub(crate) fn row(&mut self, tax: &Taxonomy, batch: &Batch, r: usize, s: usize, add: bool) {
+        let step = |x: &mut u64, by: u64| {
+            *x = if add {
+                x.wrapping_add(by)
+            } else {
+                x.wrapping_sub(by)
+            }
+        };
+        let node = tax.ancestor(batch.paths().leaf(r), s) as usize;
+        let outcome = outcome_at(batch, r, s);
+        step(&mut self.predicted_at[node], 1);
+        let slot = &mut self.stop_count[s];
+        match outcome {
+            Outcome::Correct => {
+                step(&mut slot.correct, 1);
+                step(&mut self.correct_at[node], 1);
+            }
+            Outcome::Unverifiable => step(&mut slot.unverifiable, 1),
+            _ => step(&mut slot.wrong, 1),
+        }
+        if batch.label(r) == NONE {
+            return;
+        }
+        let a = batch.agree(r);
+        step(&mut self.h_pred, s as u64);
+        step(&mut self.h_inter, s.min(a) as u64);
+        if outcome == Outcome::Wrong {
+            step(
+                &mut self.severity,
+                (s + batch.label_depth(r) - 2 * s.min(a)) as u64,
+            );
+            step(&mut self.severity_n, 1);
+        }
+    }
 }
 
 /// Decode every row under `settings` and compute all metrics.
@@ -178,7 +229,7 @@ pub fn evaluate(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Metrics {
     } else {
         general(tax, batch, settings)
     };
-    finish(batch, settings, sums)
+    finish(tax, batch, settings, sums)
 }
 
 /// The fast path: per row, the stop depth is the number of leading depths that pass (padding
@@ -198,7 +249,7 @@ fn kernel<const CUMULATIVE: bool>(
     let stride = levels * 3 + 1;
     let mut counts = vec![0u64; 2 * stride];
     let abstain_bucket = levels * 3;
-    let mut sums = Sums::default();
+    let mut sums = Sums::new(tax, levels);
     let has_object = batch.has_objectness();
     let cond = paths.cond_all();
     let leaves = paths.leaves();
@@ -240,9 +291,9 @@ fn kernel<const CUMULATIVE: bool>(
             } else {
                 abstain_bucket
             }] += 1;
-        let gain = tax.gain_at(leaves[r], s);
-        sums.gain += if predicts { gain } else { 0.0 };
-        sums.reward += if predicts & correct { gain } else { 0.0 };
+        let node = tax.ancestor(leaves[r], s) as usize;
+        sums.predicted_at[node] += predicts as u64;
+        sums.correct_at[node] += (predicts & correct) as u64;
         let scored = (predicts & labelled) as u64;
         let inter = s.min(a) as u64;
         sums.h_pred += s as u64 * scored;
@@ -267,50 +318,26 @@ fn kernel<const CUMULATIVE: bool>(
 /// The general path: per-node thresholds looked up along each row's path.
 fn general(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Sums {
     let thresholds = settings.thresholds.resolve(tax);
-    let mut sums = Sums {
-        stop_count: vec![OutcomeCount::default(); batch.paths().width() + 1],
-        ..Sums::default()
-    };
+    let mut sums = Sums::new(tax, batch.paths().width() + 1);
     for r in 0..batch.len() {
-        let g = batch.label(r);
-        let Some(s) = stop_depth(tax, batch, settings.rule, &thresholds, r) else {
-            sums.abstained += 1;
-            continue;
-        };
-        let gain = tax.gain(tax.ancestor(batch.paths().leaf(r), s));
-        sums.gain += gain;
-        let outcome = outcome_at(batch, r, s);
-        let slot = &mut sums.stop_count[s];
-        match outcome {
-            Outcome::Correct => {
-                slot.correct += 1;
-                sums.reward += gain;
+        match stop_depth(tax, batch, settings.rule, &thresholds, r) {
+            None => sums.abstained += 1,
+            Some(s) => {
+                sums.row(tax, batch, r, s, true);
+                sums.false_alarms += (batch.label(r) == NONE) as u64;
             }
-            Outcome::Unverifiable => slot.unverifiable += 1,
-            _ => slot.wrong += 1,
-        }
-        if g == NONE {
-            sums.false_alarms += 1;
-            continue;
-        }
-        let a = batch.agree(r);
-        sums.h_pred += s as u64;
-        sums.h_inter += s.min(a) as u64;
-        if outcome == Outcome::Wrong {
-            sums.severity += (s + batch.label_depth(r) - 2 * s.min(a)) as u64;
-            sums.severity_n += 1;
         }
     }
     sums
 }
 
-fn finish(batch: &Batch, settings: &Settings, sums: Sums) -> Metrics {
+pub(crate) fn finish(tax: &Taxonomy, batch: &Batch, settings: &Settings, sums: Sums) -> Metrics {
     let Sums {
         stop_count,
         abstained,
         false_alarms,
-        gain: gain_sum,
-        reward: reward_sum,
+        predicted_at,
+        correct_at,
         h_inter,
         h_pred,
         severity: severity_sum,
@@ -318,6 +345,15 @@ fn finish(batch: &Batch, settings: &Settings, sums: Sums) -> Metrics {
     } = sums;
     let labelled = batch.labelled_rows();
     let h_true = batch.label_depth_sum();
+    let weigh = |counts: &[u64]| -> f64 {
+        counts
+            .iter()
+            .enumerate()
+            .filter(|(_, &k)| k > 0)
+            .map(|(v, &k)| k as f64 * tax.gain(v as u32))
+            .sum()
+    };
+    let (gain_sum, reward_sum) = (weigh(&predicted_at), weigh(&correct_at));
     let correct: u64 = stop_count.iter().map(|c| c.correct).sum();
     let unverifiable: u64 = stop_count.iter().map(|c| c.unverifiable).sum();
     let wrong: u64 = stop_count.iter().map(|c| c.wrong).sum();
