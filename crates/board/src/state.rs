@@ -10,8 +10,8 @@ use std::collections::BTreeMap;
 use std::rc::Rc;
 
 use hedgerow_core::{
-    depth_sweep, evaluate, npy, Batch, CurveIndex, CurvePoint, Errors, Ingested, Labels, Metrics,
-    Objectness, Policy, Profile, Rule, Settings, Taxonomy, Temperatures,
+    npy, Batch, CurveIndex, CurvePoint, DepthDrag, Errors, Ingested, Labels, Metrics, Objectness,
+    Policy, Profile, Rule, Settings, Taxonomy, Temperatures,
 };
 use serde::{Deserialize, Serialize};
 
@@ -200,14 +200,20 @@ pub struct Board {
     curve_index: Option<(usize, Rule, Rc<CurveIndex>)>,
     pub sweep: Rc<Vec<TradePoint>>,
     sweep_key: Option<SweepKey>,
+    /// The focused depth's drag index: a cache shared by the clones of one board (replacing or
+    /// moving it changes no field an older board shows).
+    drag: Rc<std::cell::RefCell<Option<DepthDrag>>>,
     /// Bumped whenever a new batch becomes active (for caches keyed on it).
     pub generation: usize,
     /// The key whose read failed, so it is not retried until something changes.
     logits_failed_for: Option<IngestKey>,
     pending_total: u64,
     /// The logits file and paths a `LogitsChosen` replaced, put back by `LogitsCancelled`.
-    before_choice: Option<(Option<String>, Option<(IngestKey, Rc<Ingested>)>)>,
+    before_choice: Option<BeforeChoice>,
 }
+
+/// The staged logits file name and its paths, as they were before a new file was chosen.
+type BeforeChoice = (Option<String>, Option<(IngestKey, Rc<Ingested>)>);
 
 #[derive(Debug, Clone, PartialEq)]
 struct SweepKey {
@@ -628,7 +634,6 @@ impl Board {
         if self.settings.thresholds.validate().is_err() {
             return;
         }
-        self.metrics = Some(evaluate(&a.taxonomy, &a.batch, &self.settings));
         let object = if a.batch.has_objectness() {
             self.settings.thresholds.object
         } else {
@@ -668,6 +673,13 @@ impl Board {
             *x = 0;
         }
         others.push(object.to_bits());
+        others.extend(
+            self.settings
+                .thresholds
+                .nodes
+                .iter()
+                .flat_map(|&(v, t)| [v as u64, t.to_bits()]),
+        );
         let key = SweepKey {
             depth,
             generation: self.generation,
@@ -675,20 +687,32 @@ impl Board {
             policy: self.settings.policy,
             thresholds: others,
         };
-        if self.sweep_key.as_ref() != Some(&key) {
-            // Exact: one breakpoint per row that reaches the depth (not a sampled grid).
-            let points = depth_sweep(&a.taxonomy, &a.batch, &self.settings, depth)
-                .into_iter()
-                .filter_map(|p| {
-                    Some(TradePoint {
-                        threshold: p.threshold,
-                        specificity: p.specificity?,
-                        precision: p.precision?,
+        let t = self.settings.thresholds.at_depth(depth);
+        let mut drag = self.drag.borrow_mut();
+        match drag.as_mut() {
+            // Only the focused depth moved: re-score just the rows that flip.
+            Some(d) if self.sweep_key.as_ref() == Some(&key) && d.depth() == depth => {
+                self.metrics = Some(d.set(&a.taxonomy, &a.batch, t));
+            }
+            _ => {
+                // Exact: one breakpoint per row that reaches the depth (not a sampled grid).
+                let mut d = DepthDrag::new(&a.taxonomy, &a.batch, &self.settings, depth);
+                let points = d
+                    .sweep(&a.taxonomy, &a.batch)
+                    .into_iter()
+                    .filter_map(|p| {
+                        Some(TradePoint {
+                            threshold: p.threshold,
+                            specificity: p.specificity?,
+                            precision: p.precision?,
+                        })
                     })
-                })
-                .collect();
-            self.sweep = Rc::new(points);
-            self.sweep_key = Some(key);
+                    .collect();
+                self.sweep = Rc::new(points);
+                self.sweep_key = Some(key);
+                self.metrics = Some(d.set(&a.taxonomy, &a.batch, t));
+                *drag = Some(d);
+            }
         }
     }
 
