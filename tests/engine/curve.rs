@@ -128,3 +128,32 @@ fn depth_drag_equals_full_evaluation() {
         }
     }
 }
+
+/// A curve drawn to a resolution keeps exact points only: its first and last points are the
+/// exact curve's, every kept point is one of the exact ones, and kept points are at least the
+/// resolution apart.
+#[test]
+fn thinned_curve_keeps_exact_points() {
+    let tax = taxonomy(TREE);
+    let (rows, labels, obj) = sample_rows(200);
+    let b = batch(&tax, &rows, &labels, Some(&obj), &[]);
+    let index = hedgerow_core::CurveIndex::new(&tax, &b, Rule::Conditional);
+    let exact = index.sweep(&tax, &b, 0.1, Policy::Credit);
+    let thin = index.sweep_within(&tax, &b, 0.1, Policy::Credit, 0.05);
+    assert!(
+        thin.len() < exact.len(),
+        "{} vs {}",
+        thin.len(),
+        exact.len()
+    );
+    assert_eq!(thin.first(), exact.first());
+    assert_eq!(thin.last(), exact.last());
+    for p in &thin {
+        assert!(exact.contains(p), "{p:?} is not an exact point");
+    }
+    for w in thin[..thin.len() - 1].windows(2) {
+        let ds = (w[0].specificity.unwrap_or(0.0) - w[1].specificity.unwrap_or(0.0)).abs();
+        let dp = (w[0].precision.unwrap_or(0.0) - w[1].precision.unwrap_or(0.0)).abs();
+        assert!(ds >= 0.05 || dp >= 0.05, "{w:?}");
+    }
+}

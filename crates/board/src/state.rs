@@ -215,6 +215,10 @@ pub struct Board {
 /// The staged logits file name and its paths, as they were before a new file was chosen.
 type BeforeChoice = (Option<String>, Option<(IngestKey, Rc<Ingested>)>);
 
+/// The chart's curve keeps a point once precision or specificity moved by this much: finer
+/// than a pixel at any sensible chart size, and a million-row curve stays a few thousand points.
+const CURVE_RESOLUTION: f64 = 1.0 / 2000.0;
+
 #[derive(Debug, Clone, PartialEq)]
 struct SweepKey {
     depth: usize,
@@ -658,7 +662,13 @@ impl Board {
                     index
                 }
             };
-            self.curve = Rc::new(index.sweep(&a.taxonomy, &a.batch, object, self.settings.policy));
+            self.curve = Rc::new(index.sweep_within(
+                &a.taxonomy,
+                &a.batch,
+                object,
+                self.settings.policy,
+                CURVE_RESOLUTION,
+            ));
             self.curve_key = Some(curve_key);
         }
         let depth = self.focus.clamp(1, a.taxonomy.max_depth().max(1));

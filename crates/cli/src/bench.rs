@@ -3,7 +3,7 @@
 
 use std::time::Instant;
 
-use hedgerow_core::{evaluate, exact_curve};
+use hedgerow_core::{evaluate, CurveIndex, DepthDrag};
 
 use crate::load::{Failure, Loaded};
 use crate::{Input, SettingArgs};
@@ -44,15 +44,36 @@ pub fn run(input: &Input, args: &SettingArgs, repeat: usize) -> Result<String, F
         times.push(t.elapsed().as_secs_f64());
         checksum = checksum.wrapping_add(m.correct);
     }
+    // Dragging one depth's slider: build the index once, then small moves re-score only the
+    // rows whose decision flips.
+    let drag_depth = depth.min(2).max(1);
     let t = Instant::now();
-    let curve = exact_curve(
+    let mut drag = DepthDrag::new(tax, batch, &settings, drag_depth);
+    let drag_build_seconds = t.elapsed().as_secs_f64();
+    let mut drag_times = Vec::with_capacity(repeat);
+    for i in 0..repeat.max(1) {
+        let value = 0.4 + 0.004 * (i % 50) as f64;
+        let t = Instant::now();
+        let m = drag.set(tax, batch, value);
+        drag_times.push(t.elapsed().as_secs_f64());
+        checksum = checksum.wrapping_add(m.correct);
+    }
+    let t = Instant::now();
+    let index = CurveIndex::new(tax, batch, settings.rule);
+    let curve_index_seconds = t.elapsed().as_secs_f64();
+    let t = Instant::now();
+    let curve = index.sweep(tax, batch, settings.thresholds.object, settings.policy);
+    let curve_sweep_seconds = t.elapsed().as_secs_f64();
+    let curve_seconds = curve_index_seconds + curve_sweep_seconds;
+    let t = Instant::now();
+    let drawn = index.sweep_within(
         tax,
         batch,
-        settings.rule,
         settings.thresholds.object,
         settings.policy,
+        1.0 / 2000.0,
     );
-    let curve_seconds = t.elapsed().as_secs_f64();
+    let curve_drawn_seconds = t.elapsed().as_secs_f64();
     let out = serde_json::json!({
         "rows": batch.len(),
         "nodes": tax.len(),
@@ -62,7 +83,16 @@ pub fn run(input: &Input, args: &SettingArgs, repeat: usize) -> Result<String, F
         "evaluate_seconds_median": median(times.clone()),
         "evaluate_seconds_min": times.iter().copied().fold(f64::INFINITY, f64::min),
         "evaluate_repeats": times.len(),
+        "drag_depth": drag_depth,
+        "drag_build_seconds": drag_build_seconds,
+        "drag_move_seconds_median": median(drag_times),
+        "drag_movable_rows": drag.movable(),
         "curve_seconds": curve_seconds,
+        "curve_index_seconds": curve_index_seconds,
+        "curve_sweep_seconds": curve_sweep_seconds,
+        "curve_breakpoints": index.len(),
+        "curve_drawn_sweep_seconds": curve_drawn_seconds,
+        "curve_drawn_points": drawn.len(),
         "curve_points": curve.len(),
         "path_bytes_per_row": batch.paths().bytes_per_row(),
         "peak_rss_bytes": peak_rss(),
