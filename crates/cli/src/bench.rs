@@ -46,7 +46,7 @@ pub fn run(input: &Input, args: &SettingArgs, repeat: usize) -> Result<String, F
     }
     // Dragging one depth's slider: build the index once, then small moves re-score only the
     // rows whose decision flips.
-    let drag_depth = depth.min(2).max(1);
+    let drag_depth = depth.clamp(1, 2);
     let t = Instant::now();
     let mut drag = DepthDrag::new(tax, batch, &settings, drag_depth);
     let drag_build_seconds = t.elapsed().as_secs_f64();
