@@ -13,10 +13,10 @@ fn median(mut v: Vec<f64>) -> f64 {
     v.get(v.len() / 2).copied().unwrap_or(f64::NAN)
 }
 
-/// Peak resident memory of this process in bytes (Linux), if known.
-fn peak_rss() -> Option<u64> {
+/// Peak (`VmHWM`) or current (`VmRSS`) resident memory of this process in bytes (Linux).
+fn rss(field: &str) -> Option<u64> {
     let status = std::fs::read_to_string("/proc/self/status").ok()?;
-    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
+    let line = status.lines().find(|l| l.starts_with(field))?;
     let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
     Some(kb * 1024)
 }
@@ -25,9 +25,12 @@ pub fn run(input: &Input, args: &SettingArgs, repeat: usize) -> Result<String, F
     let bytes = std::fs::metadata(&input.logits)
         .map(|m| m.len())
         .unwrap_or(0);
+    let before = rss("VmRSS:");
     let t = Instant::now();
     let loaded = Loaded::load(input, args)?;
     let load_seconds = t.elapsed().as_secs_f64();
+    let after = rss("VmRSS:");
+    let peak_during_load = rss("VmHWM:");
     let (tax, batch) = (&loaded.taxonomy, &loaded.batch);
     let depth = tax.max_depth();
     // Each timed change moves one depth's threshold, as dragging a slider does.
@@ -95,7 +98,9 @@ pub fn run(input: &Input, args: &SettingArgs, repeat: usize) -> Result<String, F
         "curve_drawn_points": drawn.len(),
         "curve_points": curve.len(),
         "path_bytes_per_row": batch.paths().bytes_per_row(),
-        "peak_rss_bytes": peak_rss(),
+        "resident_growth_after_load_bytes": after.zip(before).map(|(a, b)| a.saturating_sub(b)),
+        "peak_rss_during_load_bytes": peak_during_load,
+        "peak_rss_bytes": rss("VmHWM:"),
         "checksum": checksum,
     });
     Ok(serde_json::to_string_pretty(&out).map_err(|e| Failure::Other(e.into()))? + "\n")

@@ -233,6 +233,14 @@ impl LogitsReader {
             let rest = self.head.split_off(header.data_offset);
             self.head = Vec::new();
             self.row_bytes = header.shape[1] as usize * header.dtype.scalar.size();
+            // The header says how many rows come: hold exactly that (a failed reservation, for
+            // an absurd header, just leaves the vectors to grow; truncation is reported later).
+            let rows = header.shape[0] as usize;
+            let _ = self.paths.leaf.try_reserve_exact(rows);
+            let _ = self
+                .paths
+                .cond
+                .try_reserve_exact(rows.saturating_mul(self.paths.width));
             if header.fortran_order {
                 let mut buf = Vec::new();
                 buf.try_reserve_exact(header.data_len() as usize).map_err(|_| {
