@@ -5,5 +5,6 @@ mod harness;
 mod invariants;
 mod numpy_files;
 mod profile;
+mod robustness;
 mod rules;
 mod worked;

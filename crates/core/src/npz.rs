@@ -147,7 +147,7 @@ pub fn data_offset(member: &Member, local: &[u8]) -> Result<u64, ErrorKind> {
     }
     let n = u16_at(local, 26).unwrap_or(0) as u64;
     let e = u16_at(local, 28).unwrap_or(0) as u64;
-    Ok(member.local_header + 30 + n + e)
+    Ok(member.local_header.saturating_add(30 + n + e))
 }
 
 /// Decompresses one member as its compressed bytes arrive.
@@ -247,7 +247,7 @@ impl Inflow {
 /// Read a member whole from a bundle held in memory (small members, tests).
 pub fn extract(bytes: &[u8], member: &Member) -> Result<Vec<u8>, ErrorKind> {
     let local = bytes
-        .get(member.local_header as usize..)
+        .get(usize::try_from(member.local_header).unwrap_or(usize::MAX)..)
         .ok_or_else(|| bad("a member past the end"))?;
     let start = data_offset(member, local)? as usize;
     let end = start
@@ -259,7 +259,9 @@ pub fn extract(bytes: &[u8], member: &Member) -> Result<Vec<u8>, ErrorKind> {
             member.name
         ))
     })?;
-    let mut out = Vec::with_capacity(member.size as usize);
+    // The directory's size is a claim, not a fact: reserve at most what the data could hold.
+    let mut out = Vec::new();
+    let _ = out.try_reserve(member.size.min(data.len() as u64 * 1032) as usize);
     let mut flow = Inflow::new(member)?;
     flow.feed(
         data,
@@ -278,8 +280,9 @@ pub fn members(bytes: &[u8]) -> Result<Vec<Member>, ErrorKind> {
     let len = bytes.len() as u64;
     let tail = &bytes[bytes.len().saturating_sub(TAIL_BYTES as usize)..];
     let (offset, size) = directory_range(tail, len)?;
+    let end = offset.saturating_add(size).min(usize::MAX as u64) as usize;
     let dir = bytes
-        .get(offset as usize..(offset + size) as usize)
+        .get(offset.min(usize::MAX as u64) as usize..end)
         .ok_or_else(|| bad("the directory lies past the end"))?;
     parse_directory(dir)
 }

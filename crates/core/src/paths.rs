@@ -243,7 +243,8 @@ impl LogitsReader {
                 .try_reserve_exact(rows.saturating_mul(self.paths.width));
             if header.fortran_order {
                 let mut buf = Vec::new();
-                buf.try_reserve_exact(header.data_len() as usize).map_err(|_| {
+                let len = usize::try_from(header.data_len()).unwrap_or(usize::MAX);
+                buf.try_reserve_exact(len).map_err(|_| {
                     self.fail(
                         Location::default(),
                         ErrorKind::Invalid {
@@ -439,7 +440,9 @@ impl LogitsReader {
             for r in 0..rows {
                 for c in 0..cols {
                     let at = (c * rows + r) * size;
-                    row[c * size..(c + 1) * size].copy_from_slice(&buf[at..at + size]);
+                    if let Some(value) = buf.get(at..at + size) {
+                        row[c * size..(c + 1) * size].copy_from_slice(value);
+                    }
                 }
                 self.push_row(tax, header.dtype, &row);
             }
