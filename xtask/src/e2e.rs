@@ -1,15 +1,17 @@
 //! `cargo xtask e2e`: end-to-end tests of the built page in headless Chromium.
 //!
-//! Builds the page (unless `--no-build`), serves `dist/` on an ephemeral port
-//! of 127.0.0.1 on a background thread, starts chromedriver and one headless
-//! Chromium session, and runs every test in order against both the http URL
-//! and `file://…/dist/index.html`. Screenshots go to `target/e2e/`, including
-//! one per failed test (`target/e2e/failed-<test>.png`).
+//! Builds the page (unless `--no-build`) and the command line (`hedgerow`, whose
+//! `evaluate --json` on `demo-data/` gives the numbers the page must show), serves
+//! `dist/` on an ephemeral port of 127.0.0.1 on a background thread, starts
+//! chromedriver and one headless Chromium session, and runs every test in order
+//! against both the http URL and `file://…/dist/index.html`. Screenshots go to
+//! `target/e2e/`, including one per failed test (`target/e2e/failed-<test>.png`);
+//! the measured figures (load time, one threshold change) to `target/e2e/figures.txt`.
 //!
 //! Add tests in a module under `e2e/` and list them in [`all_tests`].
 
 mod harness;
-mod placeholder;
+mod page;
 mod privacy;
 
 use std::future::Future;
@@ -39,6 +41,12 @@ pub struct Ctx {
     pub server_log: Arc<Mutex<Vec<String>>>,
     /// `target/e2e/`, for screenshots and other artifacts.
     pub out_dir: PathBuf,
+    /// The command line (`target/debug/hedgerow`).
+    pub cli: PathBuf,
+    /// `demo-data/`.
+    pub demo_dir: PathBuf,
+    /// Figures measured by the tests ("name: value"), printed at the end.
+    pub figures: Mutex<Vec<String>>,
 }
 
 impl Ctx {
@@ -48,6 +56,14 @@ impl Ctx {
             .lock()
             .map(|l| l.clone())
             .unwrap_or_default()
+    }
+
+    /// Record a measured figure (reported, never asserted on).
+    pub fn figure(&self, line: String) {
+        eprintln!("        figure: {line}");
+        if let Ok(mut f) = self.figures.lock() {
+            f.push(line);
+        }
     }
 }
 
@@ -68,7 +84,7 @@ impl Test {
 
 /// Every test, in the order they run.
 fn all_tests() -> Vec<Test> {
-    let mut tests = placeholder::tests();
+    let mut tests = page::tests();
     tests.extend(privacy::tests());
     tests
 }
@@ -96,6 +112,7 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
     } else if !dist.join("index.html").is_file() {
         bail!("dist/index.html is missing: run `cargo xtask build-web` or drop --no-build");
     }
+    let cli = build_cli()?;
     let built = Instant::now();
 
     let server = crate::web::StaticServer::bind(0, dist.clone())?;
@@ -105,6 +122,9 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
         file_url: harness::file_url(&dist.join("index.html"))?,
         server_log,
         out_dir: crate::root().join("target").join("e2e"),
+        cli,
+        demo_dir: crate::root().join("demo-data"),
+        figures: Mutex::default(),
     };
     std::fs::create_dir_all(&ctx.out_dir)?;
 
@@ -117,6 +137,14 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
         .enable_all()
         .build()?;
     let (passed, failed) = rt.block_on(run_tests(&tests, &ctx))?;
+    let figures = ctx.figures.lock().map(|f| f.clone()).unwrap_or_default();
+    if !figures.is_empty() {
+        eprintln!("e2e figures:");
+        for f in &figures {
+            eprintln!("  {f}");
+        }
+        let _ = std::fs::write(ctx.out_dir.join("figures.txt"), figures.join("\n") + "\n");
+    }
 
     eprintln!(
         "e2e: build {:.1}s, browser tests {:.1}s, total {:.1}s",
@@ -129,6 +157,26 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
         bail!("{failed} end-to-end test(s) failed");
     }
     Ok(())
+}
+
+/// `cargo build -p hedgerow-cli`; returns the binary.
+fn build_cli() -> anyhow::Result<PathBuf> {
+    let cargo = std::env::var_os("CARGO").unwrap_or_else(|| "cargo".into());
+    let status = std::process::Command::new(cargo)
+        .current_dir(crate::root())
+        .args(["build", "--package", "hedgerow-cli"])
+        .status()
+        .context("running cargo build for the command line")?;
+    if !status.success() {
+        bail!("cargo build -p hedgerow-cli failed ({status})");
+    }
+    let bin = crate::web::target_dir()
+        .join("debug")
+        .join(format!("hedgerow{}", std::env::consts::EXE_SUFFIX));
+    if !bin.is_file() {
+        bail!("cargo built hedgerow-cli but {} is missing", bin.display());
+    }
+    Ok(bin)
 }
 
 async fn run_tests(tests: &[Test], ctx: &Ctx) -> anyhow::Result<(usize, usize)> {

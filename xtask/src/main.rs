@@ -1,5 +1,7 @@
 //! Project tasks (build, test, generate, serve), run as `cargo xtask <task>`.
 
+mod batch;
+mod bench;
 mod demo;
 mod e2e;
 mod npy_write;
@@ -16,7 +18,10 @@ tasks:
   gen-demo    regenerate demo-data/ from the fixed seed
   build-web   build the page into dist/
   serve       build the page and serve it on 127.0.0.1
-  e2e         build the page and run its end-to-end tests in headless Chromium";
+  e2e         build the page and run its end-to-end tests in headless Chromium
+  gen-batch   write a large synthetic batch (--rows N --nodes M --depth D --out DIR [--seed S])
+  bench       benchmark the CLI against the numpy peer (and wasm in Chromium); writes BENCHMARKS.md
+  bench-wasm  run the engine's benchmark compiled to wasm in headless Chromium";
 
 fn main() -> anyhow::Result<()> {
     let mut args = std::env::args().skip(1);
@@ -28,6 +33,9 @@ fn main() -> anyhow::Result<()> {
         "build-web" => web::build(&rest).map(|_| ()),
         "serve" => web::serve(&rest),
         "e2e" => e2e::run(&rest),
+        "gen-batch" => batch::run(&rest),
+        "bench" => bench::run(&rest),
+        "bench-wasm" => bench::wasm::run(&rest),
         _ => {
             eprintln!("{USAGE}");
             std::process::exit(2);

@@ -117,6 +117,15 @@ pub fn build_with(opts: &BuildOptions) -> anyhow::Result<BuildOutput> {
     Ok(out)
 }
 
+/// Cargo's target directory (`CARGO_TARGET_DIR`, else `target/` of the workspace).
+pub fn target_dir() -> PathBuf {
+    let root = crate::root();
+    std::env::var_os("CARGO_TARGET_DIR")
+        .map(PathBuf::from)
+        .map(|p| if p.is_relative() { root.join(p) } else { p })
+        .unwrap_or_else(|| root.join("target"))
+}
+
 /// Compile the web crate for wasm32 and return the path of the `.wasm`.
 fn cargo_build_wasm(root: &Path) -> anyhow::Result<PathBuf> {
     let cargo = std::env::var_os("CARGO").unwrap_or_else(|| "cargo".into());
@@ -136,11 +145,7 @@ fn cargo_build_wasm(root: &Path) -> anyhow::Result<PathBuf> {
     if !status.success() {
         bail!("cargo build of {WEB_PACKAGE} for {WASM_TARGET} failed ({status})");
     }
-    let target_dir = std::env::var_os("CARGO_TARGET_DIR")
-        .map(PathBuf::from)
-        .map(|p| if p.is_relative() { root.join(p) } else { p })
-        .unwrap_or_else(|| root.join("target"));
-    let wasm = target_dir
+    let wasm = target_dir()
         .join(WASM_TARGET)
         .join(WASM_PROFILE)
         .join(format!("{WEB_PACKAGE}.wasm"));

@@ -313,7 +313,7 @@ mod tests {
         }
         assert!(!svg.contains(EMPTY_MESSAGE));
         // The curve is one polyline in its colour; the sweep's markers are circles in its colour
-        // (21 on the chart, one in the legend).
+        // (one per tenth of the threshold, 11 on the chart, and one in the legend).
         let curve_stroke = format!("stroke=\"#{:02X}{:02X}{:02X}\"", CURVE.0, CURVE.1, CURVE.2);
         assert!(svg
             .split("<polyline")
@@ -324,7 +324,7 @@ mod tests {
             .skip(1)
             .filter(|c| c.contains(&hex(SWEEP)))
             .count();
-        assert_eq!(sweep_dots, 21 + 1);
+        assert_eq!(sweep_dots, 11 + 1);
         // Ticks read 0.0 .. 1.0 on x and reach 1.0 on y.
         for tick in ["0.0", "0.5", "1.0"] {
             assert!(has_text(&svg, tick), "missing tick {tick}");

@@ -25,15 +25,18 @@ pub enum Slot {
     Labels,
     Objectness,
     Profile,
+    /// Files that were not recognised as any of the above.
+    Other,
 }
 
 impl Slot {
-    pub const ALL: [Slot; 5] = [
+    pub const ALL: [Slot; 6] = [
         Slot::Taxonomy,
         Slot::Logits,
         Slot::Labels,
         Slot::Objectness,
         Slot::Profile,
+        Slot::Other,
     ];
     pub fn title(self) -> &'static str {
         match self {
@@ -42,6 +45,7 @@ impl Slot {
             Slot::Labels => "labels",
             Slot::Objectness => "objectness",
             Slot::Profile => "profile",
+            Slot::Other => "other",
         }
     }
 }
@@ -219,6 +223,29 @@ type BeforeChoice = (Option<String>, Option<(IngestKey, Rc<Ingested>)>);
 /// than a pixel at any sensible chart size, and a million-row curve stays a few thousand points.
 const CURVE_RESOLUTION: f64 = 1.0 / 2000.0;
 
+/// Keep a point once it has moved at least `resolution` (in precision or specificity) from the
+/// last kept one; the first and last points are always kept.
+fn thin(points: impl Iterator<Item = TradePoint>, resolution: f64) -> Vec<TradePoint> {
+    let mut out: Vec<TradePoint> = Vec::new();
+    let mut pending = None;
+    for p in points {
+        match out.last() {
+            Some(last)
+                if (last.specificity - p.specificity).abs() < resolution
+                    && (last.precision - p.precision).abs() < resolution =>
+            {
+                pending = Some(p);
+            }
+            _ => {
+                out.push(p);
+                pending = None;
+            }
+        }
+    }
+    out.extend(pending);
+    out
+}
+
 #[derive(Debug, Clone, PartialEq)]
 struct SweepKey {
     depth: usize,
@@ -259,14 +286,9 @@ impl Board {
         };
         match &self.ingested {
             Some((k, _)) if *k == key => None,
-            _ if self
-                .errors
-                .get(&Slot::Logits)
-                .is_some_and(|e| !e.is_empty())
-                && self.logits_failed_for.as_ref() == Some(&key) =>
-            {
-                None
-            }
+            // A read that failed is not retried until the file or the key changes (dismissing
+            // its error does not ask for it again).
+            _ if self.logits_failed_for.as_ref() == Some(&key) => None,
             _ => Some(key),
         }
     }
@@ -298,7 +320,7 @@ impl Board {
             Action::File { name, bytes } => self.file(name, bytes),
             Action::Unreadable { slot, message } => {
                 self.errors
-                    .insert(slot.unwrap_or(Slot::Profile), vec![message]);
+                    .insert(slot.unwrap_or(Slot::Other), vec![message]);
             }
             Action::LogitsChosen { name, total } => {
                 self.before_choice = Some((self.logits.take(), self.ingested.take()));
@@ -436,7 +458,7 @@ impl Board {
         let slot = match recognise(&name, &bytes[..bytes.len().min(1 << 16)]) {
             Ok(s) => s,
             Err(message) => {
-                self.errors.insert(Slot::Profile, vec![message]);
+                self.errors.insert(Slot::Other, vec![message]);
                 return;
             }
         };
@@ -487,6 +509,7 @@ impl Board {
                     )],
                 );
             }
+            Slot::Other => {}
         }
     }
 
@@ -707,17 +730,16 @@ impl Board {
             _ => {
                 // Exact: one breakpoint per row that reaches the depth (not a sampled grid).
                 let mut d = DepthDrag::new(&a.taxonomy, &a.batch, &self.settings, depth);
-                let points = d
-                    .sweep(&a.taxonomy, &a.batch)
-                    .into_iter()
-                    .filter_map(|p| {
+                let points = thin(
+                    d.sweep(&a.taxonomy, &a.batch).into_iter().filter_map(|p| {
                         Some(TradePoint {
                             threshold: p.threshold,
                             specificity: p.specificity?,
                             precision: p.precision?,
                         })
-                    })
-                    .collect();
+                    }),
+                    CURVE_RESOLUTION,
+                );
                 self.sweep = Rc::new(points);
                 self.sweep_key = Some(key);
                 self.metrics = Some(d.set(&a.taxonomy, &a.batch, t));

@@ -22,15 +22,22 @@ pub fn js_error(e: &JsValue) -> String {
 
 /// The bytes `start..end` of a blob (a chosen file), read without reading the rest.
 pub async fn read_range(blob: &Blob, start: u64, end: u64) -> Result<Vec<u8>, String> {
-    let part = blob.slice_with_f64_and_f64(start as f64, end as f64).map_err(|e| js_error(&e))?;
-    let buffer = JsFuture::from(part.array_buffer()).await.map_err(|e| js_error(&e))?;
+    let part = blob
+        .slice_with_f64_and_f64(start as f64, end as f64)
+        .map_err(|e| js_error(&e))?;
+    let buffer = JsFuture::from(part.array_buffer())
+        .await
+        .map_err(|e| js_error(&e))?;
     Ok(Uint8Array::new(&buffer).to_vec())
 }
 
 /// Let the browser run (paint, handle input) before going on: resolves on a `setTimeout(0)`.
 pub async fn next_tick() {
     let promise = Promise::new(&mut |resolve, _reject| {
-        let scheduled = web_sys::window().and_then(|w| w.set_timeout_with_callback_and_timeout_and_arguments_0(&resolve, 0).ok());
+        let scheduled = web_sys::window().and_then(|w| {
+            w.set_timeout_with_callback_and_timeout_and_arguments_0(&resolve, 0)
+                .ok()
+        });
         if scheduled.is_none() {
             // No timer to wait for: go on at once rather than never.
             let _ = resolve.call0(&JsValue::NULL);
@@ -66,9 +73,14 @@ pub fn download(file_name: &str, mime: &str, text: &str) -> Result<(), String> {
     let options = BlobPropertyBag::new();
     options.set_type(mime);
     let parts = Array::of1(&JsValue::from_str(text));
-    let blob = Blob::new_with_str_sequence_and_options(&parts, &options).map_err(|e| js_error(&e))?;
+    let blob =
+        Blob::new_with_str_sequence_and_options(&parts, &options).map_err(|e| js_error(&e))?;
     let url = Url::create_object_url_with_blob(&blob).map_err(|e| js_error(&e))?;
-    let anchor: HtmlAnchorElement = document.create_element("a").map_err(|e| js_error(&e))?.dyn_into().map_err(|_| "not an anchor element")?;
+    let anchor: HtmlAnchorElement = document
+        .create_element("a")
+        .map_err(|e| js_error(&e))?
+        .dyn_into()
+        .map_err(|_| "not an anchor element")?;
     anchor.set_href(&url);
     anchor.set_download(file_name);
     anchor.set_hidden(true);
@@ -79,13 +91,16 @@ pub fn download(file_name: &str, mime: &str, text: &str) -> Result<(), String> {
     let revoke = Closure::once_into_js(move || {
         let _ = Url::revoke_object_url(&url);
     });
-    let _ = window.set_timeout_with_callback_and_timeout_and_arguments_0(revoke.unchecked_ref(), 10_000);
+    let _ = window
+        .set_timeout_with_callback_and_timeout_and_arguments_0(revoke.unchecked_ref(), 10_000);
     Ok(())
 }
 
 /// `performance.now()` in milliseconds, or 0.
 pub fn now() -> f64 {
-    web_sys::window().and_then(|w| w.performance()).map_or(0.0, |p| p.now())
+    web_sys::window()
+        .and_then(|w| w.performance())
+        .map_or(0.0, |p| p.now())
 }
 
 /// A named `performance.mark`, for measuring the page from outside (the end-to-end tests).
@@ -97,5 +112,7 @@ pub fn mark(name: &str) {
 
 /// `devicePixelRatio`, at least 1.
 pub fn pixel_ratio() -> f64 {
-    web_sys::window().map_or(1.0, |w| w.device_pixel_ratio()).max(1.0)
+    web_sys::window()
+        .map_or(1.0, |w| w.device_pixel_ratio())
+        .max(1.0)
 }

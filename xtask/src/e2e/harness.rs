@@ -31,6 +31,8 @@ pub struct Config {
     pub window: (u32, u32),
     /// How long the helpers wait for an element, a text or the page to start.
     pub timeout: Duration,
+    /// Where downloads land (Chrome's `download.default_directory`).
+    pub download_dir: PathBuf,
 }
 
 impl Config {
@@ -46,6 +48,7 @@ impl Config {
             chromium: path("HEDGEROW_CHROMIUM", "/usr/bin/chromium"),
             window: (1280, 800),
             timeout: Duration::from_secs(20),
+            download_dir: crate::root().join("target").join("e2e").join("downloads"),
         }
     }
 }
@@ -139,6 +142,8 @@ pub struct Browser {
     _driver: Chromedriver,
     profile_dir: PathBuf,
     pub timeout: Duration,
+    /// Where downloads land.
+    pub download_dir: PathBuf,
 }
 
 impl Browser {
@@ -146,6 +151,9 @@ impl Browser {
     pub async fn launch(cfg: &Config) -> anyhow::Result<Self> {
         let driver = Chromedriver::start(&cfg.chromedriver)?;
         let profile_dir = fresh_profile_dir()?;
+        std::fs::create_dir_all(&cfg.download_dir)
+            .with_context(|| format!("creating {}", cfg.download_dir.display()))?;
+        let download_dir = std::fs::canonicalize(&cfg.download_dir)?;
         let args = vec![
             "--headless".to_string(),
             "--no-sandbox".into(),
@@ -169,6 +177,13 @@ impl Browser {
                 "binary": cfg.chromium,
                 "args": args,
                 "perfLoggingPrefs": { "enableNetwork": true, "enablePage": false },
+                // Downloads (a saved profile) go straight to a known folder, headless too.
+                "prefs": {
+                    "download.default_directory": download_dir,
+                    "download.prompt_for_download": false,
+                    "download.directory_upgrade": true,
+                    "safebrowsing.enabled": false,
+                },
             },
             "goog:loggingPrefs": { "performance": "ALL", "browser": "ALL" },
         });
@@ -182,11 +197,13 @@ impl Browser {
             .connect(&driver.url())
             .await
             .context("opening a WebDriver session in chromedriver")?;
+        fit_viewport(&client, cfg.window).await?;
         Ok(Self {
             client,
             _driver: driver,
             profile_dir,
             timeout: cfg.timeout,
+            download_dir,
         })
     }
 
@@ -254,7 +271,6 @@ impl Browser {
     }
 
     /// Every element with this `data-testid` now (no waiting).
-    #[allow(dead_code)] // for the page's tests to come
     pub async fn find_all(&self, id: &str) -> anyhow::Result<Vec<Element>> {
         let sel = Self::testid(id);
         Ok(self.client.find_all(Locator::Css(&sel)).await?)
@@ -313,7 +329,6 @@ impl Browser {
     }
 
     /// Choose a local file in an `<input type="file">` (WebDriver sends the path).
-    #[allow(dead_code)] // for the page's tests to come
     pub async fn upload_file(&self, id: &str, path: &Path) -> anyhow::Result<()> {
         let abs = std::fs::canonicalize(path).with_context(|| format!("{}", path.display()))?;
         self.find(id)
@@ -419,6 +434,26 @@ impl Browser {
             })
             .unwrap_or_default())
     }
+}
+
+/// Resize the window so that the page's viewport (not the window, which has the browser's
+/// own bars even headless) is `width`×`height`, as on a screen of that size.
+async fn fit_viewport(client: &Client, (width, height): (u32, u32)) -> anyhow::Result<()> {
+    for _ in 0..3 {
+        let v = client
+            .execute("return [window.innerWidth, window.innerHeight];", vec![])
+            .await
+            .context("reading the viewport size")?;
+        let inner = |i: usize| v[i].as_u64().unwrap_or(0) as i64;
+        let (dw, dh) = (i64::from(width) - inner(0), i64::from(height) - inner(1));
+        if dw == 0 && dh == 0 {
+            return Ok(());
+        }
+        let (w, h) = client.get_window_size().await?;
+        let grow = |outer: u64, d: i64| (outer as i64 + d).max(100) as u32;
+        client.set_window_size(grow(w, dw), grow(h, dh)).await?;
+    }
+    Ok(())
 }
 
 /// `POST /session/{id}/se/log {"type": kind}`: chromedriver's log endpoint,

@@ -1,6 +1,7 @@
 //! Privacy: the page makes no request but its own document load, over http
-//! and from disk, logs no error (so no CSP violation), and its CSP really
-//! refuses connections.
+//! and from disk, through a whole session (the demo loads, thresholds and the
+//! rule change, a profile is saved), logs no error (so no CSP violation), and
+//! its CSP really refuses connections.
 //!
 //! Requests are counted three ways:
 //! - Chrome's performance log (`Network.requestWillBeSent` of the page's
@@ -31,19 +32,32 @@ pub fn tests() -> Vec<Test> {
     ]
 }
 
+/// Whether the headline shows a number (the demo is loaded and scored).
+fn scored(t: &str) -> bool {
+    t.parse::<f64>().is_ok()
+}
+
 /// Open the page, use it, and check what went out.
 async fn no_requests(b: &Browser, c: &Ctx, url: &str, served: bool) -> anyhow::Result<()> {
     b.client().goto("about:blank").await?;
     b.clear_logs().await?;
     let server_before = c.server_requests().len();
 
+    // A whole session: the demo at startup, again by its button, tuning, a saved profile.
     b.open(url).await?;
+    b.wait_text("metric-precision", "a number", scored).await?;
     b.click("load-demo").await?;
-    b.set_value("threshold", "0.4").await?;
-    b.wait_text("status", "\"Demo loaded…\"", |t| {
-        t.starts_with("Demo loaded")
-    })
-    .await?;
+    b.wait_text("metric-precision", "a number", scored).await?;
+    b.set_value("threshold-depth-2", "0.8").await?;
+    b.set_value("threshold-depth-4", "0.35").await?;
+    b.set_value("rule", "conditional").await?;
+    b.set_value("threshold-all", "0.6").await?;
+    b.wait_text("metric-precision", "a number", scored).await?;
+    let profile = super::page::save_and_fetch(b).await?;
+    anyhow::ensure!(
+        std::fs::metadata(&profile)?.len() > 0,
+        "the saved profile is empty"
+    );
     // Give anything lazy (favicon, late fetches) time to show up.
     tokio::time::sleep(Duration::from_millis(1000)).await;
 

@@ -154,10 +154,14 @@ pub fn draw_tradeoff<B: DrawingBackend>(
             dash / 2 + 1,
             SWEEP.stroke_width(s.thin),
         ))?;
-        chart.draw_series(
-            pts.iter()
-                .map(|p| Circle::new(xy(p), marker_small(s), SWEEP.filled())),
-        )?;
+        // One marker per tenth of the dragged threshold (0, 0.1, …, 1): where the operating
+        // point sits when that depth's control reads that value.
+        let tenths = (0..=10).filter_map(|k| {
+            let t = k as f64 / 10.0;
+            let i = pts.partition_point(|p| p.threshold <= t);
+            pts.get(i.saturating_sub(1))
+        });
+        chart.draw_series(tenths.map(|p| Circle::new(xy(p), marker_small(s), SWEEP.filled())))?;
     }
 
     let to_px = |p: &TradePoint| {

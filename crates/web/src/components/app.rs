@@ -1,62 +1,156 @@
-//! The root component (placeholder until the real page is written on top of
-//! `hedgerow-core`): proves that the wasm runs, events reach Rust, inputs are
-//! read and a plotters chart draws on a canvas.
+//! The root component: the one board state (`use_reducer` over `hedgerow_board::state::Board`),
+//! the loader, stored settings, and the page's layout. Everything below gets props and
+//! callbacks.
 
+use std::rc::Rc;
+
+use hedgerow_board::state::{Action, Slot, Stored};
+use hedgerow_core::{Policy, Rule};
 use yew::prelude::*;
 
+use super::chart::{Chart, ChartView};
+use super::controls::Controls;
 use super::demo_button::DemoButton;
-use super::threshold_chart::ThresholdChart;
-use super::threshold_input::ThresholdInput;
-use crate::demo_data;
+use super::error_area::ErrorArea;
+use super::file_picker::FilePicker;
+use super::files_panel::FilesPanel;
+use super::headline::Headline;
+use super::read_progress::ReadProgress;
+use crate::browser;
+use crate::hooks::use_file_drop::use_file_drop;
+use crate::hooks::use_loader::use_loader;
+use crate::store::BoardState;
+
+/// The settings of a fresh page (the command line's defaults).
+fn defaults() -> Stored {
+    Stored {
+        rule: Rule::Cumulative,
+        object_threshold: 0.5,
+        thresholds: vec![0.5],
+        temperatures: Vec::new(),
+        unverifiable: Policy::Credit,
+    }
+}
 
 #[function_component(App)]
 pub fn app() -> Html {
-    let status = use_state(|| String::from("No data loaded."));
-    let threshold = use_state(|| 0.5_f64);
-    let error = use_state(String::new);
+    let board = use_reducer(BoardState::restored);
+    let loader = use_loader(&board);
+    let on_action = use_callback(board.dispatcher(), |action: Action, d| d.dispatch(action));
 
-    let on_load_demo = {
-        let status = status.clone();
-        Callback::from(move |()| {
-            let bytes: usize = demo_data::FILES.iter().map(|f| f.bytes.len()).sum();
-            let names: Vec<&str> = demo_data::FILES.iter().map(|f| f.name).collect();
-            status.set(format!(
-                "Demo loaded: {} embedded files, {} bytes [{}].",
-                names.len(),
-                bytes,
-                names.join(", ")
-            ));
-        })
-    };
-
-    let on_threshold = {
-        let threshold = threshold.clone();
-        let error = error.clone();
-        Callback::from(move |value: Result<f64, String>| match value {
-            Ok(v) => {
-                threshold.set(v);
-                error.set(String::new());
+    // The demo at startup, when nothing is loaded yet.
+    {
+        let loader = loader.clone();
+        let empty = board.taxonomy.is_none() && board.logits.is_none() && board.active.is_none();
+        use_effect_with((), move |()| {
+            if empty {
+                loader.load_demo();
             }
-            Err(e) => error.set(e),
+        });
+    }
+    // Settings survive a reload.
+    use_effect_with(board.stored(), browser::save_settings);
+    // A timing mark the first time numbers are shown (read by the end-to-end tests).
+    {
+        let marked = use_mut_ref(|| false);
+        use_effect_with(board.metrics.is_some(), move |&shown| {
+            if shown && !*marked.borrow() {
+                *marked.borrow_mut() = true;
+                browser::mark("hedgerow:numbers-shown");
+            }
+        });
+    }
+
+    let on_files = use_callback(loader.clone(), |files, loader| loader.load_files(files));
+    let dragging = use_file_drop(on_files.clone());
+    let on_demo = use_callback(loader.clone(), |(), loader| loader.load_demo());
+    let on_cancel = use_callback(loader.clone(), |(), loader| loader.cancel());
+    let on_dismiss = on_action.reform(|()| Action::ClearErrors);
+    let on_reset = on_action.reform(|()| Action::Restore(defaults()));
+    let on_save = {
+        let board = board.clone();
+        Callback::from(move |()| {
+            let result = match board.profile() {
+                Some(p) => browser::download(
+                    "hedgerow-profile.json",
+                    "application/json",
+                    &(p.to_json() + "\n"),
+                ),
+                None => Err(
+                    "load a complete batch first: a profile records the metrics its settings score"
+                        .into(),
+                ),
+            };
+            if let Err(e) = result {
+                board.dispatch(Action::Unreadable {
+                    slot: Some(Slot::Profile),
+                    message: format!("saving the profile: {e}"),
+                });
+            }
         })
     };
+
+    let depth = board.depth();
+    let errors: Vec<String> = board.errors.values().flatten().cloned().collect();
+    let active_names = board.active.as_ref().map(|a| a.names.clone());
+    let kept = active_names
+        .as_ref()
+        .map(|n| AttrValue::from(n.values().cloned().collect::<Vec<_>>().join(", ")));
+    let has_objectness = board
+        .active
+        .as_ref()
+        .is_some_and(|a| a.batch.has_objectness());
+    let stop_share = board
+        .metrics
+        .as_ref()
+        .map(|m| m.stop_share.clone())
+        .unwrap_or_default();
+    let temperatures = board.temperatures.expand(depth);
+    let tradeoff = Rc::new(ChartView::Tradeoff(board.tradeoff_view()));
+    let stops = Rc::new(ChartView::Stops(board.stop_view()));
+    let focus = board.focus;
+    let sweep_caption = format!("Up: more often right. Right: more specific. Dots: depth {focus} alone from 0 to 1 (focus another depth to switch).");
 
     html! {
-        <>
-            <header>
-                <h1>{ "hedgerow" }</h1>
-                <p class="subtitle">{ "Per-depth stopping thresholds for taxonomy classifiers" }</p>
+        <div class={classes!("page", dragging.then_some("dragging"))}>
+            <header class="top">
+                <div class="brand">
+                    <h1>{ "hedgerow" }</h1>
+                    <p class="purpose">{ "Choose where a taxonomy classifier stops: tune per-depth thresholds on a validation batch, save the profile the CLI applies." }</p>
+                </div>
+                <div class="load">
+                    <DemoButton onclick={on_demo} />
+                    <FilePicker on_files={on_files} />
+                </div>
             </header>
-            <section class="panel">
-                <DemoButton onclick={on_load_demo} />
-                <p data-testid="status">{ (*status).clone() }</p>
-                <ThresholdInput value={*threshold} onchange={on_threshold} />
-                <p data-testid="threshold-echo">{ format!("threshold = {:.2}", *threshold) }</p>
-                <div data-testid="error" class="error" role="alert">{ (*error).clone() }</div>
-            </section>
-            <section class="panel">
-                <ThresholdChart threshold={*threshold} />
-            </section>
-        </>
+            if let Some(p) = board.progress.clone() {
+                <ReadProgress progress={p} on_cancel={on_cancel} />
+            }
+            <ErrorArea errors={errors} kept={kept} on_dismiss={on_dismiss} />
+            <div class="layout">
+                <aside class="left">
+                    <Controls settings={board.settings.clone()} depth={depth} has_objectness={has_objectness} focus={focus}
+                        stop_share={stop_share} temperatures={temperatures} can_save={board.metrics.is_some()}
+                        on_action={on_action.clone()} on_save={on_save} on_reset={on_reset} />
+                </aside>
+                <div class="right">
+                    <Headline metrics={board.metrics.clone()} />
+                    <section class="charts" aria-label="Charts">
+                        <Chart id="chart-tradeoff" title="Precision against specificity" caption={sweep_caption} view={tradeoff} />
+                        <Chart id="chart-stops" title="Where predictions stop"
+                            caption="Share of predictions that stop at each depth (0 = the root: type unknown), by outcome."
+                            view={stops} />
+                    </section>
+                </div>
+            </div>
+            <FilesPanel notes={board.notes.clone()} errors={board.errors.clone()} active={active_names} last_read_ms={loader.last_read_ms()} />
+            <footer class="foot">
+                { "Everything runs in this page: files are read locally and nothing is sent anywhere. The scores come from the same engine as the " }
+                <code>{ "hedgerow" }</code>{ " command line." }
+            </footer>
+            if dragging {
+                <div class="drop-hint" aria-hidden="true">{ "Drop files to load them" }</div>
+            }
+        </div>
     }
 }

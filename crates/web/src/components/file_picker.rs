@@ -14,7 +14,10 @@ pub fn file_picker(props: &FilePickerProps) -> Html {
     let on_files = props.on_files.clone();
     let onchange = Callback::from(move |e: Event| {
         let input: HtmlInputElement = e.target_unchecked_into();
-        let files: Vec<File> = input.files().map(|list| (0..list.length()).filter_map(|i| list.item(i)).collect()).unwrap_or_default();
+        let files: Vec<File> = input
+            .files()
+            .map(|list| (0..list.length()).filter_map(|i| list.item(i)).collect())
+            .unwrap_or_default();
         // Clear, so that choosing the same file again (after fixing it) loads it again.
         input.set_value("");
         if !files.is_empty() {

@@ -12,7 +12,9 @@ use std::collections::HashMap;
 use std::rc::Rc;
 
 use hedgerow_board::state::{recognise, Action, IngestKey, Slot};
-use hedgerow_core::{Error, ErrorKind, Errors, Ingested, Location, LogitsReader, Taxonomy, Temperatures};
+use hedgerow_core::{
+    Error, ErrorKind, Errors, Ingested, Location, LogitsReader, Taxonomy, Temperatures,
+};
 use web_sys::File;
 use yew::prelude::*;
 
@@ -43,7 +45,10 @@ impl Source {
     async fn read(&self, start: u64, end: u64) -> Result<Vec<u8>, String> {
         match self {
             Source::File(f) => read_range(f, start, end).await,
-            Source::Demo(b) => Ok(b.get(start as usize..end as usize).unwrap_or_default().to_vec()),
+            Source::Demo(b) => Ok(b
+                .get(start as usize..end as usize)
+                .unwrap_or_default()
+                .to_vec()),
         }
     }
 }
@@ -81,12 +86,20 @@ impl Loader {
 
     /// Load the embedded demo batch (one click; also at startup).
     pub fn load_demo(&self) {
-        for f in [demo_data::TAXONOMY] {
-            self.dispatch(Action::File { name: f.name.into(), bytes: Rc::new(f.bytes.to_vec()) });
-        }
-        self.choose_logits(demo_data::LOGITS.name.into(), Source::Demo(demo_data::LOGITS.bytes));
+        let tax = demo_data::TAXONOMY;
+        self.dispatch(Action::File {
+            name: tax.name.into(),
+            bytes: Rc::new(tax.bytes.to_vec()),
+        });
+        self.choose_logits(
+            demo_data::LOGITS.name.into(),
+            Source::Demo(demo_data::LOGITS.bytes),
+        );
         for f in [demo_data::LABELS, demo_data::OBJECTNESS] {
-            self.dispatch(Action::File { name: f.name.into(), bytes: Rc::new(f.bytes.to_vec()) });
+            self.dispatch(Action::File {
+                name: f.name.into(),
+                bytes: Rc::new(f.bytes.to_vec()),
+            });
         }
     }
 
@@ -102,9 +115,15 @@ impl Loader {
                 match read_range(&file, 0, size.min(HEAD)).await {
                     Ok(head) => match recognise(&name, &head) {
                         Ok(slot) => known.push((slot, file)),
-                        Err(message) => this.dispatch(Action::Unreadable { slot: None, message }),
+                        Err(message) => this.dispatch(Action::Unreadable {
+                            slot: None,
+                            message,
+                        }),
                     },
-                    Err(e) => this.dispatch(Action::Unreadable { slot: None, message: format!("{name}: could not be read: {e}") }),
+                    Err(e) => this.dispatch(Action::Unreadable {
+                        slot: None,
+                        message: format!("{name}: could not be read: {e}"),
+                    }),
                 }
             }
             known.sort_by_key(|(slot, _)| *slot);
@@ -116,8 +135,14 @@ impl Loader {
                 }
                 let size = file.size().max(0.0) as u64;
                 match read_range(&file, 0, size).await {
-                    Ok(bytes) => this.dispatch(Action::File { name, bytes: Rc::new(bytes) }),
-                    Err(e) => this.dispatch(Action::Unreadable { slot: Some(slot), message: format!("{name}: could not be read: {e}") }),
+                    Ok(bytes) => this.dispatch(Action::File {
+                        name,
+                        bytes: Rc::new(bytes),
+                    }),
+                    Err(e) => this.dispatch(Action::Unreadable {
+                        slot: Some(slot),
+                        message: format!("{name}: could not be read: {e}"),
+                    }),
                 }
             }
         });
@@ -125,7 +150,11 @@ impl Loader {
 
     fn choose_logits(&self, name: String, source: Source) {
         let total = source.len();
-        let previous = self.shared.sources.borrow_mut().insert(name.clone(), source);
+        let previous = self
+            .shared
+            .sources
+            .borrow_mut()
+            .insert(name.clone(), source);
         *self.shared.replaced.borrow_mut() = Some((name.clone(), previous));
         self.abandon();
         self.dispatch(Action::LogitsChosen { name, total });
@@ -133,7 +162,9 @@ impl Loader {
 
     /// Stop the read in flight (it dispatches nothing more).
     fn abandon(&self) {
-        self.shared.ticket.set(self.shared.ticket.get().wrapping_add(1));
+        self.shared
+            .ticket
+            .set(self.shared.ticket.get().wrapping_add(1));
         self.shared.running.set(false);
     }
 
@@ -160,8 +191,12 @@ impl Loader {
         if self.shared.running.get() {
             return;
         }
-        let Some(key) = board.wanted_ingest() else { return };
-        let (Some(name), Some((_, tax))) = (board.logits.clone(), board.taxonomy.clone()) else { return };
+        let Some(key) = board.wanted_ingest() else {
+            return;
+        };
+        let (Some(name), Some((_, tax))) = (board.logits.clone(), board.taxonomy.clone()) else {
+            return;
+        };
         let source = self.shared.sources.borrow().get(&name).cloned();
         let ticket = self.shared.ticket.get().wrapping_add(1);
         self.shared.ticket.set(ticket);
@@ -171,7 +206,13 @@ impl Loader {
             let started = browser::now();
             let result = match source {
                 Some(source) => this.stream(&source, &name, &tax, &key, ticket).await,
-                None => Some(Err(problem(&name, Location::default(), "the file to read", "a file chosen in this page", "it is no longer available: choose it again"))),
+                None => Some(Err(problem(
+                    &name,
+                    Location::default(),
+                    "the file to read",
+                    "a file chosen in this page",
+                    "it is no longer available: choose it again",
+                ))),
             };
             // `None`: abandoned (cancelled, or another file chosen meanwhile).
             let Some(result) = result else { return };
@@ -187,7 +228,14 @@ impl Loader {
         });
     }
 
-    async fn stream(&self, source: &Source, name: &str, tax: &Taxonomy, key: &IngestKey, ticket: u64) -> Option<Result<Ingested, Errors>> {
+    async fn stream(
+        &self,
+        source: &Source,
+        name: &str,
+        tax: &Taxonomy,
+        key: &IngestKey,
+        ticket: u64,
+    ) -> Option<Result<Ingested, Errors>> {
         let live = || self.shared.ticket.get() == ticket;
         let total = source.len();
         let mut reader = LogitsReader::new(name, tax, &Temperatures(key.temperatures.clone()));
@@ -201,7 +249,15 @@ impl Loader {
             }
             let chunk = match chunk {
                 Ok(c) => c,
-                Err(e) => return Some(Err(problem(name, Location::byte(done), "reading the file", "its bytes", &e))),
+                Err(e) => {
+                    return Some(Err(problem(
+                        name,
+                        Location::byte(done),
+                        "reading the file",
+                        "its bytes",
+                        &e,
+                    )))
+                }
             };
             if let Err(e) = reader.feed(tax, &chunk) {
                 return Some(Err(e));
@@ -218,14 +274,26 @@ impl Loader {
 }
 
 fn problem(file: &str, at: Location, what: &str, expected: &str, found: &str) -> Errors {
-    Error::new(file, at, ErrorKind::Invalid { what: what.into(), expected: expected.into(), found: found.into() }).into()
+    Error::new(
+        file,
+        at,
+        ErrorKind::Invalid {
+            what: what.into(),
+            expected: expected.into(),
+            found: found.into(),
+        },
+    )
+    .into()
 }
 
 /// The loader of the page. Call once, at the root, with the board's reducer handle.
 #[hook]
 pub fn use_loader(board: &UseReducerHandle<BoardState>) -> Loader {
     let shared = use_memo((), |()| Shared::default());
-    let loader = Loader { shared: Rc::clone(&shared), dispatcher: board.dispatcher() };
+    let loader = Loader {
+        shared: Rc::clone(&shared),
+        dispatcher: board.dispatcher(),
+    };
     {
         let loader = loader.clone();
         let board = board.clone();

@@ -1,0 +1,213 @@
+//! The engine's benchmark in the browser: JS feeds a batch's files (the logits in chunks, as the
+//! page does with `Blob.slice`), and this crate times, with `performance.now()`, what the page
+//! does with them: ingestion (`LogitsReader::feed` + `finish`, then `Batch::new`), `evaluate`
+//! after threshold changes (one depth's threshold moved per change, as a slider drag does: the
+//! same sequence as `hedgerow bench`), and the exact curve. Results are JSON strings.
+//!
+//! Built for wasm32-unknown-unknown and driven by `cargo xtask bench-wasm` (see
+//! `xtask/src/bench/wasm.rs` and the page in `crates/bench-wasm/www/`).
+
+use hedgerow_core::{
+    evaluate, exact_curve, Batch, Labels, LogitsReader, Objectness, Policy, Rule, Settings,
+    Taxonomy, Temperatures, Thresholds,
+};
+use wasm_bindgen::prelude::*;
+
+/// Milliseconds from `performance.now()` (falls back to `Date.now()` off the main thread).
+pub fn now_ms() -> f64 {
+    web_sys::window()
+        .and_then(|w| w.performance())
+        .map(|p| p.now())
+        .unwrap_or_else(js_sys::Date::now)
+}
+
+fn js_err(e: impl std::fmt::Display) -> JsError {
+    JsError::new(&e.to_string())
+}
+
+fn errors(e: hedgerow_core::Errors) -> JsError {
+    JsError::new(
+        &e.iter()
+            .map(|e| e.to_string())
+            .collect::<Vec<_>>()
+            .join("\n"),
+    )
+}
+
+fn median(mut v: Vec<f64>) -> f64 {
+    v.sort_by(f64::total_cmp);
+    v.get(v.len() / 2).copied().unwrap_or(f64::NAN)
+}
+
+/// One batch being read, then evaluated.
+#[wasm_bindgen]
+pub struct Session {
+    tax: Taxonomy,
+    reader: Option<LogitsReader>,
+    batch: Option<Batch>,
+    feed_ms: f64,
+    fed_bytes: u64,
+    chunks: u64,
+    finish_ms: f64,
+}
+
+#[wasm_bindgen]
+impl Session {
+    /// Start a session for a taxonomy (CSV or JSON bytes).
+    #[wasm_bindgen(constructor)]
+    pub fn new(taxonomy: &[u8]) -> Result<Session, JsError> {
+        let tax = Taxonomy::parse(taxonomy, "taxonomy.csv").map_err(errors)?;
+        let reader = LogitsReader::new("logits.npy", &tax, &Temperatures::default());
+        Ok(Session {
+            tax,
+            reader: Some(reader),
+            batch: None,
+            feed_ms: 0.0,
+            fed_bytes: 0,
+            chunks: 0,
+            finish_ms: 0.0,
+        })
+    }
+
+    /// Feed the next chunk of the logits file (timed inside: engine work only).
+    pub fn feed(&mut self, chunk: &[u8]) -> Result<(), JsError> {
+        let reader = self
+            .reader
+            .as_mut()
+            .ok_or_else(|| js_err("the logits were already finished"))?;
+        let t = now_ms();
+        reader.feed(&self.tax, chunk).map_err(errors)?;
+        self.feed_ms += now_ms() - t;
+        self.fed_bytes += chunk.len() as u64;
+        self.chunks += 1;
+        Ok(())
+    }
+
+    /// End the logits and join them with the labels (CSV or .npy) and objectness (.npy; empty =
+    /// none) into a batch.
+    pub fn finish(&mut self, labels: &[u8], objectness: &[u8]) -> Result<(), JsError> {
+        let reader = self
+            .reader
+            .take()
+            .ok_or_else(|| js_err("the logits were already finished"))?;
+        let t = now_ms();
+        let ingested = reader.finish(&self.tax).map_err(errors)?;
+        let labels = Labels::parse(labels, "labels.csv", &self.tax).map_err(errors)?;
+        let objectness = if objectness.is_empty() {
+            None
+        } else {
+            Some(Objectness::parse(objectness, "objectness.npy").map_err(errors)?)
+        };
+        let batch = Batch::new(
+            &self.tax,
+            "logits.npy",
+            ingested,
+            Temperatures::default(),
+            labels,
+            objectness,
+        )
+        .map_err(errors)?;
+        self.finish_ms = now_ms() - t;
+        self.batch = Some(batch);
+        Ok(())
+    }
+
+    /// Ingestion figures so far, as JSON.
+    pub fn ingest_report(&self) -> String {
+        let rows = self.batch.as_ref().map_or(0, |b| b.len());
+        serde_json::json!({
+            "rows": rows,
+            "nodes": self.tax.len(),
+            "depth": self.tax.max_depth(),
+            "fed_bytes": self.fed_bytes,
+            "chunks": self.chunks,
+            "feed_ms": self.feed_ms,
+            "finish_ms": self.finish_ms,
+            "path_bytes_per_row": self.batch.as_ref().map(|b| b.paths().bytes_per_row()),
+        })
+        .to_string()
+    }
+
+    /// Time `repeat` evaluations, each after moving one depth's threshold (as `hedgerow bench`
+    /// does), starting from `thresholds` (comma-separated) and the object threshold.
+    pub fn evaluate_changes(
+        &self,
+        thresholds: &str,
+        object_threshold: f64,
+        repeat: usize,
+    ) -> Result<String, JsError> {
+        let batch = self
+            .batch
+            .as_ref()
+            .ok_or_else(|| js_err("no batch: call finish first"))?;
+        let depths: Vec<f64> = thresholds
+            .split(',')
+            .map(|t| t.trim().parse::<f64>().map_err(js_err))
+            .collect::<Result<_, _>>()?;
+        let depth = self.tax.max_depth();
+        let mut settings = Settings {
+            rule: Rule::Cumulative,
+            thresholds: Thresholds {
+                object: object_threshold,
+                depths: (1..=depth.max(1))
+                    .map(|d| {
+                        depths
+                            .get(d - 1)
+                            .or(depths.last())
+                            .copied()
+                            .unwrap_or(0.5)
+                    })
+                    .collect(),
+                nodes: Vec::new(),
+            },
+            policy: Policy::Credit,
+        };
+        let mut times = Vec::with_capacity(repeat);
+        let mut checksum = 0u64;
+        for i in 0..repeat.max(1) {
+            let d = i % depth.max(1);
+            if let Some(t) = settings.thresholds.depths.get_mut(d) {
+                *t = 0.3 + 0.6 * ((i * 7919) % 101) as f64 / 100.0;
+            }
+            let t = now_ms();
+            let m = evaluate(&self.tax, batch, &settings);
+            times.push(now_ms() - t);
+            checksum = checksum.wrapping_add(m.correct);
+        }
+        let base = Settings {
+            thresholds: Thresholds {
+                object: object_threshold,
+                depths,
+                nodes: Vec::new(),
+            },
+            ..settings.clone()
+        };
+        let at_base = evaluate(&self.tax, batch, &base);
+        Ok(serde_json::json!({
+            "evaluate_ms_median": median(times.clone()),
+            "evaluate_ms_min": times.iter().copied().fold(f64::INFINITY, f64::min),
+            "evaluate_repeats": times.len(),
+            "checksum": checksum,
+            "metrics": at_base,
+        })
+        .to_string())
+    }
+
+    /// Time the exact curve (cumulative rule, credit policy) once.
+    pub fn curve(&self, object_threshold: f64) -> Result<String, JsError> {
+        let batch = self
+            .batch
+            .as_ref()
+            .ok_or_else(|| js_err("no batch: call finish first"))?;
+        let t = now_ms();
+        let points = exact_curve(
+            &self.tax,
+            batch,
+            Rule::Cumulative,
+            object_threshold,
+            Policy::Credit,
+        );
+        let ms = now_ms() - t;
+        Ok(serde_json::json!({ "curve_ms": ms, "curve_points": points.len() }).to_string())
+    }
+}

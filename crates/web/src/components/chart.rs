@@ -1,0 +1,80 @@
+//! One chart on a `<canvas>`, drawn by `hedgerow_board::charts` through plotters' canvas
+//! backend after each render where its view (or the window's width) changed. The backing store
+//! is sized by `devicePixelRatio`; the chart functions scale text and lines from the pixel size,
+//! so text stays crisp and the same size on screen.
+
+use std::rc::Rc;
+
+use hedgerow_board::charts::{draw_stops, draw_tradeoff, StopView, TradeoffView};
+use plotters::prelude::*;
+use plotters_canvas::CanvasBackend;
+use web_sys::HtmlCanvasElement;
+use yew::prelude::*;
+
+use crate::browser::pixel_ratio;
+use crate::hooks::use_window_width::use_window_width;
+
+#[derive(Debug, Clone, PartialEq)]
+pub enum ChartView {
+    Tradeoff(TradeoffView),
+    Stops(StopView),
+}
+
+#[derive(Properties, PartialEq)]
+pub struct ChartProps {
+    /// `data-testid` of the canvas.
+    pub id: AttrValue,
+    pub title: AttrValue,
+    pub caption: AttrValue,
+    pub view: Rc<ChartView>,
+}
+
+fn draw(canvas: &HtmlCanvasElement, view: &ChartView) -> Result<(), String> {
+    let ratio = pixel_ratio();
+    let (css_w, css_h) = (canvas.client_width(), canvas.client_height());
+    if css_w <= 0 || css_h <= 0 {
+        return Ok(()); // not laid out (hidden): nothing to draw on
+    }
+    let w = (f64::from(css_w) * ratio).round() as u32;
+    let h = (f64::from(css_h) * ratio).round() as u32;
+    if canvas.width() != w {
+        canvas.set_width(w);
+    }
+    if canvas.height() != h {
+        canvas.set_height(h);
+    }
+    let backend =
+        CanvasBackend::with_canvas_object(canvas.clone()).ok_or("the canvas has no 2d context")?;
+    let area = backend.into_drawing_area();
+    match view {
+        ChartView::Tradeoff(v) => draw_tradeoff(&area, v),
+        ChartView::Stops(v) => draw_stops(&area, v),
+    }
+    .map_err(|e| e.to_string())?;
+    area.present().map_err(|e| e.to_string())
+}
+
+#[function_component(Chart)]
+pub fn chart(props: &ChartProps) -> Html {
+    let canvas = use_node_ref();
+    let width = use_window_width();
+    {
+        let canvas = canvas.clone();
+        use_effect_with((props.view.clone(), width), move |(view, _)| {
+            if let Some(c) = canvas.cast::<HtmlCanvasElement>() {
+                if let Err(e) = draw(&c, view) {
+                    web_sys::console::warn_1(&format!("chart: {e}").into());
+                }
+            }
+        });
+    }
+    html! {
+        <figure class="chart">
+            <figcaption>
+                <h3>{ props.title.clone() }</h3>
+                <p class="help">{ props.caption.clone() }</p>
+            </figcaption>
+            <canvas ref={canvas} data-testid={props.id.clone()} role="img" aria-label={props.title.clone()}></canvas>
+        </figure>
+    }
+}

@@ -1,0 +1,806 @@
+//! The page against the command line: every number the page shows for some settings must be
+//! the number `hedgerow evaluate --json` prints for the same settings on `demo-data/`.
+//!
+//! Each test starts from a fresh page (stored settings cleared) unless it is about what a
+//! reload keeps. Screenshots of the main states go to `target/e2e/` at 1280×800.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+use std::time::{Duration, Instant};
+
+use anyhow::{bail, ensure, Context};
+use serde_json::{json, Value};
+
+use super::{Browser, Ctx, Test};
+
+pub fn tests() -> Vec<Test> {
+    vec![
+        Test::new(
+            "http: the demo loads at startup and equals the CLI at the defaults",
+            |b, c| Box::pin(demo_defaults(b, c, c.http_url.as_str(), "http")),
+        ),
+        Test::new("http: per-depth thresholds equal the CLI", |b, c| {
+            Box::pin(per_depth(b, c))
+        }),
+        Test::new("http: the conditional rule equals the CLI", |b, c| {
+            Box::pin(conditional(b, c))
+        }),
+        Test::new(
+            "http: object threshold, all depths and policy equal the CLI",
+            |b, c| Box::pin(other_controls(b, c)),
+        ),
+        Test::new(
+            "http: a saved profile gives the page's numbers in the CLI",
+            |b, c| Box::pin(save_profile(b, c)),
+        ),
+        Test::new("http: thresholds and rule survive a reload", |b, c| {
+            Box::pin(reload(b, c))
+        }),
+        Test::new(
+            "http: a profile made by the CLI loads through the file input",
+            |b, c| Box::pin(load_cli_profile(b, c)),
+        ),
+        Test::new(
+            "http: a broken labels file shows the located error and keeps the batch",
+            |b, c| Box::pin(broken_labels(b, c)),
+        ),
+        Test::new("http: dropped files load like chosen ones", |b, c| {
+            Box::pin(dropped(b, c))
+        }),
+        Test::new(
+            "http: a temperature change re-reads the logits and equals the CLI",
+            |b, c| Box::pin(temperature(b, c)),
+        ),
+        Test::new(
+            "http: Cancel stops a logits read and keeps the batch",
+            |b, c| Box::pin(cancel(b, c)),
+        ),
+        Test::new(
+            "file: the demo loads and equals the CLI at the defaults",
+            |b, c| Box::pin(demo_defaults(b, c, c.file_url.as_str(), "file")),
+        ),
+    ]
+}
+
+/// The four headline numbers as the page shows them (text content).
+#[derive(Debug, Clone, PartialEq)]
+struct Headline {
+    predictions: String,
+    precision: String,
+    specificity: String,
+    reward: String,
+}
+
+impl Headline {
+    /// The same numbers from `hedgerow evaluate --json`, formatted as the page formats them.
+    fn from_json(m: &Value) -> anyhow::Result<Self> {
+        let ratio = |k: &str| match &m[k] {
+            Value::Null => Ok("n/a".to_string()),
+            v => v
+                .as_f64()
+                .map(|v| format!("{v:.4}"))
+                .with_context(|| format!("{k} is not a number in {m}")),
+        };
+        Ok(Self {
+            predictions: m["predictions"]
+                .as_u64()
+                .with_context(|| format!("no predictions in {m}"))?
+                .to_string(),
+            precision: ratio("precision")?,
+            specificity: ratio("specificity")?,
+            reward: ratio("reward")?,
+        })
+    }
+}
+
+/// `hedgerow <args> --taxonomy … --objectness …` on the demo data.
+fn cli(c: &Ctx, command: &str, args: &[&str]) -> anyhow::Result<String> {
+    let d = &c.demo_dir;
+    let out = Command::new(&c.cli)
+        .arg(command)
+        .arg("--taxonomy")
+        .arg(d.join("taxonomy.csv"))
+        .arg("--logits")
+        .arg(d.join("logits.npy"))
+        .arg("--labels")
+        .arg(d.join("labels.csv"))
+        .arg("--objectness")
+        .arg(d.join("objectness.npy"))
+        .args(args)
+        .output()
+        .with_context(|| format!("running {}", c.cli.display()))?;
+    ensure!(
+        out.status.success(),
+        "hedgerow {command} {args:?} failed ({}): {}",
+        out.status,
+        String::from_utf8_lossy(&out.stderr)
+    );
+    Ok(String::from_utf8(out.stdout)?)
+}
+
+/// The CLI's headline for these settings flags.
+fn expected(c: &Ctx, args: &[&str]) -> anyhow::Result<Headline> {
+    let mut all = args.to_vec();
+    all.push("--json");
+    let text = cli(c, "evaluate", &all)?;
+    let m: Value = serde_json::from_str(&text).context("the CLI's JSON")?;
+    Headline::from_json(&m)
+}
+
+async fn headline(b: &Browser) -> anyhow::Result<Headline> {
+    let v = b
+        .eval(
+            r#"
+            const t = id => { const e = document.querySelector(`[data-testid="${id}"]`); return e ? e.textContent : ""; };
+            return ["predictions", "precision", "specificity", "reward"].map(k => t("metric-" + k));
+            "#,
+            vec![],
+        )
+        .await?;
+    let s = |i: usize| v[i].as_str().unwrap_or("").to_string();
+    Ok(Headline {
+        predictions: s(0),
+        precision: s(1),
+        specificity: s(2),
+        reward: s(3),
+    })
+}
+
+/// Whether a logits read is in progress.
+async fn reading(b: &Browser) -> anyhow::Result<bool> {
+    Ok(!b.find_all("read-progress").await?.is_empty())
+}
+
+/// Wait until the page shows `want` with no read in progress.
+async fn expect_headline(b: &Browser, want: &Headline, what: &str) -> anyhow::Result<()> {
+    let deadline = Instant::now() + b.timeout;
+    loop {
+        let got = headline(b).await?;
+        if got == *want && !reading(b).await? {
+            return Ok(());
+        }
+        if Instant::now() > deadline {
+            let errors = b.text("error").await.unwrap_or_default();
+            bail!("{what}: the page shows {got:?}, the CLI says {want:?} (error area: {errors:?})");
+        }
+        tokio::time::sleep(Duration::from_millis(50)).await;
+    }
+}
+
+/// The `value` of an input or select.
+async fn value(b: &Browser, id: &str) -> anyhow::Result<String> {
+    b.find(id).await?;
+    let v = b
+        .eval(
+            "return document.querySelector(arguments[0]).value;",
+            vec![json!(Browser::testid(id))],
+        )
+        .await?;
+    Ok(v.as_str().unwrap_or("").to_string())
+}
+
+/// Open the page with no stored settings (so it starts at the defaults).
+async fn open_fresh(b: &Browser, url: &str) -> anyhow::Result<()> {
+    b.open(url).await?;
+    b.eval(
+        "try { localStorage.clear(); return true; } catch (e) { return String(e); }",
+        vec![],
+    )
+    .await?;
+    b.open(url).await
+}
+
+/// Open fresh and wait for the demo at the defaults.
+async fn fresh_demo(b: &Browser, c: &Ctx, url: &str) -> anyhow::Result<Headline> {
+    open_fresh(b, url).await?;
+    let want = expected(c, &[])?;
+    expect_headline(b, &want, "the demo at the defaults").await?;
+    Ok(want)
+}
+
+async fn screenshot(b: &Browser, c: &Ctx, name: &str) -> anyhow::Result<()> {
+    // Let the charts' effects run before the shot.
+    tokio::time::sleep(Duration::from_millis(250)).await;
+    b.screenshot(&c.out_dir.join(name)).await
+}
+
+// 1 and 7.
+async fn demo_defaults(b: &Browser, c: &Ctx, url: &str, scheme: &str) -> anyhow::Result<()> {
+    let want = fresh_demo(b, c, url).await?;
+    let error = b.text("error").await?;
+    ensure!(error.is_empty(), "error area: {error:?}");
+    for d in 1..=5 {
+        let v = value(b, &format!("threshold-depth-{d}")).await?;
+        ensure!(v == "0.5", "threshold-depth-{d} is {v:?}, expected 0.5");
+    }
+    ensure!(
+        value(b, "threshold-object").await? == "0.5",
+        "object threshold"
+    );
+    ensure!(value(b, "rule").await? == "cumulative", "rule");
+    let shown = b
+        .eval(
+            "const m = performance.getEntriesByName('hedgerow:numbers-shown'); return m.length ? m[0].startTime : null;",
+            vec![],
+        )
+        .await?;
+    let ms = shown.as_f64().context("no hedgerow:numbers-shown mark")?;
+    c.figure(format!(
+        "{scheme}: page open to demo numbers shown: {ms:.0} ms (navigation start to first metrics render; precision {})",
+        want.precision
+    ));
+    // Both charts were drawn at devicePixelRatio scale.
+    let sizes = b
+        .eval(
+            r#"return ["chart-tradeoff", "chart-stops"].map(id => {
+                const c = document.querySelector(`[data-testid="${id}"]`);
+                return [c.width, c.height, c.clientWidth, c.clientHeight, window.devicePixelRatio];
+            });"#,
+            vec![],
+        )
+        .await?;
+    for s in sizes.as_array().into_iter().flatten() {
+        let f = |i: usize| s[i].as_f64().unwrap_or(0.0);
+        ensure!(
+            f(2) > 200.0 && (f(0) - (f(2) * f(4)).round()).abs() < 1.0,
+            "canvas backing store not sized by devicePixelRatio: {s}"
+        );
+    }
+    let logits = b.text("file-logits").await?;
+    c.figure(format!(
+        "{scheme}: demo logits (6.9 MB float16) streamed and decoded: {logits}"
+    ));
+    if scheme == "http" {
+        screenshot(b, c, "initial.png").await?;
+    }
+    Ok(())
+}
+
+/// Set a field and measure, in the page, the time until the change is rendered: the
+/// dispatch and the engine's re-evaluation run inside the event (yew's reducer is
+/// synchronous), then the render and the charts' redraw, all before a `setTimeout(0)` fires
+/// (yew renders on the microtask queue). Returns (engine ms, total ms).
+async fn timed_set(b: &Browser, id: &str, v: &str) -> anyhow::Result<(f64, f64)> {
+    b.find(id).await?;
+    let js = r#"
+        const [sel, value] = arguments;
+        const el = document.querySelector(sel);
+        const desc = Object.getOwnPropertyDescriptor(Object.getPrototypeOf(el), "value");
+        const t0 = performance.now();
+        desc.set.call(el, value);
+        el.dispatchEvent(new InputEvent("input", { bubbles: true }));
+        el.dispatchEvent(new Event("change", { bubbles: true }));
+        const t1 = performance.now();
+        return new Promise(resolve => setTimeout(() => resolve([t1 - t0, performance.now() - t0]), 0));
+    "#;
+    let ms = b
+        .eval(js, vec![json!(Browser::testid(id)), json!(v)])
+        .await?;
+    Ok((
+        ms[0].as_f64().context("no time")?,
+        ms[1].as_f64().context("no time")?,
+    ))
+}
+
+// 2.
+async fn per_depth(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    fresh_demo(b, c, &c.http_url).await?;
+    let ms2 = timed_set(b, "threshold-depth-2", "0.8").await?;
+    let want = expected(c, &["--thresholds", "0.5,0.8,0.5,0.5,0.5"])?;
+    expect_headline(b, &want, "depth 2 at 0.8").await?;
+    let ms4 = timed_set(b, "threshold-depth-4", "0.35").await?;
+    let want = expected(c, &["--thresholds", "0.5,0.8,0.5,0.35,0.5"])?;
+    expect_headline(b, &want, "depth 2 at 0.8, depth 4 at 0.35").await?;
+    // Repeat a few changes for a steadier figure.
+    let mut times = vec![ms2, ms4];
+    for v in ["0.6", "0.7", "0.5", "0.35"] {
+        times.push(timed_set(b, "threshold-depth-4", v).await?);
+    }
+    expect_headline(b, &want, "back at depth 4 = 0.35").await?;
+    let median = |mut v: Vec<f64>| {
+        v.sort_by(f64::total_cmp);
+        (v[v.len() / 2], v[v.len() - 1])
+    };
+    let (engine, engine_max) = median(times.iter().map(|t| t.0).collect());
+    let (total, total_max) = median(times.iter().map(|t| t.1).collect());
+    c.figure(format!(
+        "one threshold change: median {total:.1} ms (max {total_max:.1}) from the input event to \
+         the numbers and both charts redrawn, of which the reducer (engine) {engine:.1} ms \
+         (max {engine_max:.1}); {} changes, the first of each depth recomputes its sweep",
+        times.len()
+    ));
+    // The same on depth 5, whose sweep has far fewer points (fewer rows reach depth 5).
+    let mut d5 = Vec::new();
+    for v in ["0.6", "0.7", "0.4", "0.5"] {
+        d5.push(timed_set(b, "threshold-depth-5", v).await?.1);
+    }
+    let (d5_total, _) = median(d5);
+    c.figure(format!(
+        "one threshold change with depth 5 in chart 1 (a shorter sweep): median {d5_total:.1} ms"
+    ));
+    expect_headline(b, &want, "back at depth 5 = 0.5").await?;
+    // The slider moves the same threshold.
+    b.set_value("threshold-depth-4-slider", "0.5").await?;
+    expect_headline(
+        b,
+        &expected(c, &["--thresholds", "0.5,0.8,0.5,0.5,0.5"])?,
+        "slider",
+    )
+    .await?;
+    b.set_value("threshold-depth-4", "0.35").await?;
+    expect_headline(b, &want, "depth 4 back to 0.35").await?;
+    // Keyboard: focusing a depth's field makes it chart 1's sweep; arrow keys move a slider.
+    b.find("threshold-depth-3").await?.click().await?;
+    wait_focused_row(b, "threshold-depth-3").await?;
+    let slider = b.find("threshold-depth-5-slider").await?;
+    b.eval(
+        "document.querySelector(arguments[0]).focus();",
+        vec![json!(Browser::testid("threshold-depth-5-slider"))],
+    )
+    .await?;
+    wait_focused_row(b, "threshold-depth-5").await?;
+    slider
+        .send_keys(&char::from(fantoccini::key::Key::Right).to_string())
+        .await?;
+    let want = expected(c, &["--thresholds", "0.5,0.8,0.5,0.35,0.51"])?;
+    expect_headline(b, &want, "depth 5 one step up by keyboard").await?;
+    ensure!(
+        value(b, "threshold-depth-5").await? == "0.51",
+        "the number field follows the slider"
+    );
+    screenshot(b, c, "tuned.png").await
+}
+
+/// Wait until the highlighted threshold row (chart 1's sweep) is the one of field `id`.
+async fn wait_focused_row(b: &Browser, id: &str) -> anyhow::Result<()> {
+    let deadline = Instant::now() + b.timeout;
+    loop {
+        let v = b
+            .eval(
+                "const i = document.querySelector('.threshold.focused input[type=number]'); return i ? i.dataset.testid : null;",
+                vec![],
+            )
+            .await?;
+        if v.as_str() == Some(id) {
+            return Ok(());
+        }
+        if Instant::now() > deadline {
+            bail!("the highlighted threshold is {v}, expected {id}");
+        }
+        tokio::time::sleep(Duration::from_millis(50)).await;
+    }
+}
+
+// 3.
+async fn conditional(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    fresh_demo(b, c, &c.http_url).await?;
+    b.set_value("rule", "conditional").await?;
+    let want = expected(c, &["--rule", "conditional"])?;
+    expect_headline(b, &want, "conditional rule").await?;
+    b.set_value("threshold-depth-2", "0.8").await?;
+    b.set_value("threshold-depth-4", "0.35").await?;
+    let want = expected(
+        c,
+        &[
+            "--rule",
+            "conditional",
+            "--thresholds",
+            "0.5,0.8,0.5,0.35,0.5",
+        ],
+    )?;
+    expect_headline(
+        b,
+        &want,
+        "conditional rule, depth 2 at 0.8, depth 4 at 0.35",
+    )
+    .await
+}
+
+async fn other_controls(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    fresh_demo(b, c, &c.http_url).await?;
+    b.set_value("threshold-object", "0.7").await?;
+    expect_headline(
+        b,
+        &expected(c, &["--object-threshold", "0.7"])?,
+        "object threshold 0.7",
+    )
+    .await?;
+    b.set_value("threshold-all", "0.65").await?;
+    for d in 1..=5 {
+        let v = value(b, &format!("threshold-depth-{d}")).await?;
+        ensure!(
+            v == "0.65",
+            "threshold-depth-{d} is {v:?} after all depths = 0.65"
+        );
+    }
+    let want = expected(c, &["--object-threshold", "0.7", "--thresholds", "0.65"])?;
+    expect_headline(b, &want, "all depths 0.65").await?;
+    b.set_value("policy", "exclude").await?;
+    let want = expected(
+        c,
+        &[
+            "--object-threshold",
+            "0.7",
+            "--thresholds",
+            "0.65",
+            "--unverifiable",
+            "exclude",
+        ],
+    )?;
+    expect_headline(b, &want, "unverifiable exclude").await?;
+    // Out of range is clamped on commit, never an error.
+    b.set_value("threshold-depth-1", "7").await?;
+    let v = value(b, "threshold-depth-1").await?;
+    ensure!(
+        v == "1",
+        "threshold-depth-1 shows {v:?} after 7 was entered"
+    );
+    let want = expected(
+        c,
+        &[
+            "--object-threshold",
+            "0.7",
+            "--thresholds",
+            "1,0.65",
+            "--unverifiable",
+            "exclude",
+        ],
+    )?;
+    expect_headline(b, &want, "depth 1 clamped to 1").await?;
+    // Reset goes back to the defaults.
+    b.click("reset-settings").await?;
+    expect_headline(b, &expected(c, &[])?, "after Reset").await
+}
+
+/// Wait for a download to finish in `dir` and return its path.
+async fn wait_download(dir: &Path, name: &str, timeout: Duration) -> anyhow::Result<PathBuf> {
+    let path = dir.join(name);
+    let deadline = Instant::now() + timeout;
+    loop {
+        let partial = std::fs::read_dir(dir)?
+            .filter_map(Result::ok)
+            .any(|e| e.file_name().to_string_lossy().ends_with(".crdownload"));
+        if path.is_file() && !partial {
+            return Ok(path);
+        }
+        if Instant::now() > deadline {
+            let seen: Vec<String> = std::fs::read_dir(dir)?
+                .filter_map(Result::ok)
+                .map(|e| e.file_name().to_string_lossy().into_owned())
+                .collect();
+            bail!("no download {} (the folder has {seen:?})", path.display());
+        }
+        tokio::time::sleep(Duration::from_millis(100)).await;
+    }
+}
+
+fn clear_dir(dir: &Path) -> anyhow::Result<()> {
+    for e in std::fs::read_dir(dir)? {
+        let p = e?.path();
+        if p.is_file() {
+            std::fs::remove_file(&p)?;
+        }
+    }
+    Ok(())
+}
+
+/// Save the page's profile and return its path.
+pub(super) async fn save_and_fetch(b: &Browser) -> anyhow::Result<PathBuf> {
+    clear_dir(&b.download_dir)?;
+    b.click("save-profile").await?;
+    wait_download(&b.download_dir, "hedgerow-profile.json", b.timeout).await
+}
+
+// 4.
+async fn save_profile(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    fresh_demo(b, c, &c.http_url).await?;
+    b.set_value("rule", "conditional").await?;
+    b.set_value("threshold-depth-2", "0.8").await?;
+    b.set_value("threshold-depth-4", "0.35").await?;
+    b.set_value("threshold-object", "0.6").await?;
+    let want = expected(
+        c,
+        &[
+            "--rule",
+            "conditional",
+            "--thresholds",
+            "0.5,0.8,0.5,0.35,0.5",
+            "--object-threshold",
+            "0.6",
+        ],
+    )?;
+    expect_headline(b, &want, "settings to save").await?;
+    let shown = headline(b).await?;
+    let path = save_and_fetch(b).await?;
+    let saved = std::fs::read_to_string(&path)?;
+    let profile: Value = serde_json::from_str(&saved).context("the saved profile")?;
+    ensure!(
+        profile["kind"] == "hedgerow threshold profile",
+        "kind: {}",
+        profile["kind"]
+    );
+    ensure!(
+        profile["rule"] == "conditional",
+        "rule: {}",
+        profile["rule"]
+    );
+    ensure!(
+        profile["thresholds"] == json!([0.5, 0.8, 0.5, 0.35, 0.5]),
+        "thresholds: {}",
+        profile["thresholds"]
+    );
+    let keep = c.out_dir.join("saved-profile.json");
+    std::fs::copy(&path, &keep)?;
+    let text = cli(
+        c,
+        "evaluate",
+        &["--profile", &keep.to_string_lossy(), "--json"],
+    )?;
+    let from_cli = Headline::from_json(&serde_json::from_str(&text)?)?;
+    ensure!(
+        from_cli == shown,
+        "the CLI with the saved profile gives {from_cli:?}, the page showed {shown:?}"
+    );
+    // The profile records the metrics it scored: the same again.
+    let scored = Headline::from_json(&profile["scored"]["metrics"])?;
+    ensure!(
+        scored == shown,
+        "the profile's scored metrics {scored:?} differ from the page {shown:?}"
+    );
+    Ok(())
+}
+
+// 5.
+async fn reload(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    fresh_demo(b, c, &c.http_url).await?;
+    b.set_value("rule", "conditional").await?;
+    b.set_value("threshold-depth-2", "0.8").await?;
+    b.set_value("threshold-depth-4", "0.35").await?;
+    let want = expected(
+        c,
+        &[
+            "--rule",
+            "conditional",
+            "--thresholds",
+            "0.5,0.8,0.5,0.35,0.5",
+        ],
+    )?;
+    expect_headline(b, &want, "before the reload").await?;
+    // Open the page again: a new document, with only what it stored.
+    b.open(&c.http_url).await?;
+    expect_headline(b, &want, "after the reload").await?;
+    for (id, v) in [
+        ("rule", "conditional"),
+        ("threshold-depth-1", "0.5"),
+        ("threshold-depth-2", "0.8"),
+        ("threshold-depth-3", "0.5"),
+        ("threshold-depth-4", "0.35"),
+        ("threshold-depth-5", "0.5"),
+    ] {
+        let got = value(b, id).await?;
+        ensure!(got == v, "{id} is {got:?} after the reload, expected {v:?}");
+    }
+    Ok(())
+}
+
+async fn load_cli_profile(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    let path = c.out_dir.join("cli-profile.json");
+    let args = [
+        "--rule",
+        "conditional",
+        "--thresholds",
+        "0.9,0.8,0.6,0.5",
+        "--unverifiable",
+        "penalize",
+    ];
+    let mut with_out = args.to_vec();
+    let out = path.to_string_lossy().into_owned();
+    with_out.extend(["--out", out.as_str()]);
+    cli(c, "profile", &with_out)?;
+    fresh_demo(b, c, &c.http_url).await?;
+    b.upload_file("file-input", &path).await?;
+    expect_headline(b, &expected(c, &args)?, "the CLI's profile loaded").await?;
+    for (id, v) in [
+        ("rule", "conditional"),
+        ("policy", "penalize"),
+        ("threshold-depth-1", "0.9"),
+        ("threshold-depth-3", "0.6"),
+        ("threshold-depth-5", "0.5"),
+    ] {
+        let got = value(b, id).await?;
+        ensure!(
+            got == v,
+            "{id} is {got:?} after loading the profile, expected {v:?}"
+        );
+    }
+    let note = b.text("file-profile").await?;
+    ensure!(
+        note.contains("cli-profile.json"),
+        "the files panel says {note:?}"
+    );
+    Ok(())
+}
+
+const BAD_LABELS: &str = "label\nglass\nnot-a-node\n";
+const BAD_LABELS_ERROR: &str =
+    "labels-bad.csv, line 3, column label: label `not-a-node` is not an id of the taxonomy";
+
+/// Tune, then break: the error shows, the numbers and thresholds stay.
+async fn tuned_then(b: &Browser, c: &Ctx) -> anyhow::Result<Headline> {
+    fresh_demo(b, c, &c.http_url).await?;
+    b.set_value("threshold-depth-2", "0.77").await?;
+    let want = expected(c, &["--thresholds", "0.5,0.77,0.5,0.5,0.5"])?;
+    expect_headline(b, &want, "tuned").await?;
+    Ok(want)
+}
+
+async fn error_kept(b: &Browser, want: &Headline) -> anyhow::Result<()> {
+    b.wait_text("error", "the engine's located message", |t| {
+        t.contains(BAD_LABELS_ERROR)
+    })
+    .await?;
+    let beside = b.text("file-labels-errors").await?;
+    ensure!(
+        beside.contains(BAD_LABELS_ERROR),
+        "the labels slot shows {beside:?}"
+    );
+    ensure!(
+        headline(b).await? == *want,
+        "the numbers changed after a broken file"
+    );
+    let t2 = value(b, "threshold-depth-2").await?;
+    ensure!(
+        t2 == "0.77",
+        "threshold-depth-2 is {t2:?} after a broken file"
+    );
+    let in_use = b.text("in-use").await?;
+    ensure!(in_use.contains("labels.csv"), "batch in use: {in_use:?}");
+    Ok(())
+}
+
+// 6.
+async fn broken_labels(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    let want = tuned_then(b, c).await?;
+    let bad = c.out_dir.join("labels-bad.csv");
+    std::fs::write(&bad, BAD_LABELS)?;
+    b.upload_file("file-input", &bad).await?;
+    error_kept(b, &want).await?;
+    screenshot(b, c, "error.png").await?;
+    // Dismissing empties the error area; the numbers stay.
+    b.click("dismiss-errors").await?;
+    b.wait_text("error", "no error", str::is_empty).await?;
+    ensure!(headline(b).await? == want, "numbers changed on dismiss");
+    // A file that is nothing the page knows.
+    let junk = c.out_dir.join("notes.txt");
+    std::fs::write(&junk, "hello\n")?;
+    b.upload_file("file-input", &junk).await?;
+    b.wait_text("error", "not recognised", |t| {
+        t.contains("notes.txt: not recognised")
+    })
+    .await?;
+    ensure!(
+        headline(b).await? == want,
+        "numbers changed after an unknown file"
+    );
+    Ok(())
+}
+
+async fn dropped(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    let want = tuned_then(b, c).await?;
+    b.eval(
+        r#"
+        const [text, name] = arguments;
+        const dt = new DataTransfer();
+        dt.items.add(new File([text], name, { type: "text/csv" }));
+        document.querySelector("main").dispatchEvent(
+            new DragEvent("drop", { bubbles: true, cancelable: true, dataTransfer: dt }));
+        "#,
+        vec![json!(BAD_LABELS), json!("labels-bad.csv")],
+    )
+    .await?;
+    error_kept(b, &want).await
+}
+
+async fn temperature(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    fresh_demo(b, c, &c.http_url).await?;
+    b.set_value("threshold-depth-3", "0.6").await?;
+    b.set_value("temperature-depth-2", "2").await?;
+    let want = expected(
+        c,
+        &[
+            "--thresholds",
+            "0.5,0.5,0.6,0.5",
+            "--temperatures",
+            "1,2,1,1,1",
+        ],
+    )?;
+    expect_headline(b, &want, "temperature 2 at depth 2").await?;
+    let t3 = value(b, "threshold-depth-3").await?;
+    ensure!(t3 == "0.6", "threshold-depth-3 is {t3:?} after the re-read");
+    b.eval(
+        "document.querySelector('[data-testid=advanced]').open = true; window.scrollTo(0, 0);",
+        vec![],
+    )
+    .await?;
+    screenshot(b, c, "advanced.png").await?;
+    b.eval("window.scrollTo(0, document.body.scrollHeight);", vec![])
+        .await?;
+    screenshot(b, c, "files.png").await
+}
+
+/// A logits file `copies` times the demo's rows (float16), to have a read slow enough to
+/// cancel.
+fn big_logits(demo: &Path, copies: usize, out: &Path) -> anyhow::Result<()> {
+    let bytes = std::fs::read(demo)?;
+    ensure!(
+        bytes.starts_with(b"\x93NUMPY\x01\x00"),
+        "demo logits are not .npy 1.0"
+    );
+    let hlen = u16::from_le_bytes([bytes[8], bytes[9]]) as usize;
+    let header = String::from_utf8_lossy(&bytes[10..10 + hlen]).into_owned();
+    let data = &bytes[10 + hlen..];
+    let rows = 20_000 * copies;
+    let header = header.replace("(20000, 173)", &format!("({rows}, 173)"));
+    ensure!(
+        header.contains(&format!("({rows}, 173)")),
+        "unexpected demo header {header}"
+    );
+    let mut dict = header.trim_end().to_string();
+    while (10 + dict.len() + 1) % 64 != 0 {
+        dict.push(' ');
+    }
+    dict.push('\n');
+    let mut out_bytes = Vec::with_capacity(10 + dict.len() + data.len() * copies);
+    out_bytes.extend_from_slice(b"\x93NUMPY\x01\x00");
+    out_bytes.extend_from_slice(&(dict.len() as u16).to_le_bytes());
+    out_bytes.extend_from_slice(dict.as_bytes());
+    for _ in 0..copies {
+        out_bytes.extend_from_slice(data);
+    }
+    std::fs::write(out, out_bytes)?;
+    Ok(())
+}
+
+async fn cancel(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    let big = c.out_dir.join("big-logits.npy");
+    big_logits(&c.demo_dir.join("logits.npy"), 12, &big)?;
+    let want = fresh_demo(b, c, &c.http_url).await?;
+    b.upload_file("file-input", &big).await?;
+    b.find("cancel-read").await?;
+    let status = b.text("read-progress").await?;
+    ensure!(
+        status.contains("big-logits.npy"),
+        "progress says {status:?}"
+    );
+    screenshot(b, c, "reading.png").await?;
+    b.click("cancel-read").await?;
+    let deadline = Instant::now() + Duration::from_secs(5);
+    while reading(b).await? {
+        ensure!(
+            Instant::now() < deadline,
+            "the progress bar stays after Cancel"
+        );
+        tokio::time::sleep(Duration::from_millis(50)).await;
+    }
+    // Nothing starts reading again, and the batch in use is the demo's.
+    tokio::time::sleep(Duration::from_millis(1500)).await;
+    ensure!(!reading(b).await?, "a read started again after Cancel");
+    ensure!(headline(b).await? == want, "numbers changed after Cancel");
+    let note = b.text("file-logits").await?;
+    ensure!(note.contains("cancelled"), "the logits slot says {note:?}");
+    let in_use = b.text("in-use").await?;
+    ensure!(
+        in_use.contains("logits.npy") && !in_use.contains("big-logits"),
+        "batch in use: {in_use:?}"
+    );
+    // The page still works.
+    b.set_value("threshold-depth-2", "0.8").await?;
+    expect_headline(
+        b,
+        &expected(c, &["--thresholds", "0.5,0.8,0.5,0.5,0.5"])?,
+        "tuning after Cancel",
+    )
+    .await?;
+    let _ = std::fs::remove_file(&big);
+    Ok(())
+}
