@@ -731,39 +731,36 @@ async fn temperature(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
 /// A logits file `copies` times the demo's rows (float16), to have a read slow enough to
 /// cancel.
 fn big_logits(demo: &Path, copies: usize, out: &Path) -> anyhow::Result<()> {
+    use std::io::Write;
     let bytes = std::fs::read(demo)?;
+    let header = hedgerow_core::npy::parse_header(&bytes)
+        .ok()
+        .flatten()
+        .context("demo logits have no .npy header")?;
     ensure!(
-        bytes.starts_with(b"\x93NUMPY\x01\x00"),
-        "demo logits are not .npy 1.0"
+        header.shape.len() == 2,
+        "unexpected demo shape {:?}",
+        header.shape
     );
-    let hlen = u16::from_le_bytes([bytes[8], bytes[9]]) as usize;
-    let header = String::from_utf8_lossy(&bytes[10..10 + hlen]).into_owned();
-    let data = &bytes[10 + hlen..];
-    let rows = 20_000 * copies;
-    let header = header.replace("(20000, 173)", &format!("({rows}, 173)"));
-    ensure!(
-        header.contains(&format!("({rows}, 173)")),
-        "unexpected demo header {header}"
-    );
-    let mut dict = header.trim_end().to_string();
-    while (10 + dict.len() + 1) % 64 != 0 {
-        dict.push(' ');
-    }
-    dict.push('\n');
-    let mut out_bytes = Vec::with_capacity(10 + dict.len() + data.len() * copies);
-    out_bytes.extend_from_slice(b"\x93NUMPY\x01\x00");
-    out_bytes.extend_from_slice(&(dict.len() as u16).to_le_bytes());
-    out_bytes.extend_from_slice(dict.as_bytes());
+    let data = &bytes[header.data_offset..];
+    let rows = header.shape[0] * copies as u64;
+    let mut w = std::io::BufWriter::new(std::fs::File::create(out)?);
+    w.write_all(&hedgerow_core::npy::header_bytes(
+        "<f2",
+        &[rows, header.shape[1]],
+        false,
+    ))?;
     for _ in 0..copies {
-        out_bytes.extend_from_slice(data);
+        w.write_all(data)?;
     }
-    std::fs::write(out, out_bytes)?;
+    w.flush()?;
     Ok(())
 }
 
 async fn cancel(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     let big = c.out_dir.join("big-logits.npy");
-    big_logits(&c.demo_dir.join("logits.npy"), 12, &big)?;
+    // Large enough (about 330 MB) that the read is still going when Cancel is clicked.
+    big_logits(&c.demo_dir.join("logits.npy"), 48, &big)?;
     let want = fresh_demo(b, c, &c.http_url).await?;
     b.upload_file("file-input", &big).await?;
     b.find("cancel-read").await?;
