@@ -27,7 +27,7 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
     };
 
     step("wasm32 target", &mut || ensure_wasm_target())?;
-    step("cargo test (core, cli, xtask)", &mut || cargo(&root, &["test", "--workspace", "--exclude", "hedgerow-web"]))?;
+    step("cargo test (core, cli, board, xtask)", &mut || cargo(&root, &["test"]))?;
     step("core builds for wasm32-unknown-unknown", &mut || cargo(&root, &["build", "-p", "hedgerow-core", "--target", "wasm32-unknown-unknown"]))?;
     if !skip("--no-python") {
         step("CLI build for the external checks", &mut || cargo(&root, &["build", "-p", "hedgerow-cli"]))?;
