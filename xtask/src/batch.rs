@@ -152,7 +152,10 @@ pub fn parse_args(args: &[String]) -> anyhow::Result<Option<(Spec, PathBuf)>> {
         let mut value = || -> anyhow::Result<String> {
             match &inline {
                 Some(v) => Ok(v.clone()),
-                None => it.next().cloned().with_context(|| format!("{flag} needs a value")),
+                None => it
+                    .next()
+                    .cloned()
+                    .with_context(|| format!("{flag} needs a value")),
             }
         };
         match flag {
@@ -312,7 +315,11 @@ fn level_sizes(nodes: usize, depth: usize) -> Vec<usize> {
         return vec![nodes];
     }
     let rest = (nodes - top) as f64;
-    let sum = |g: f64| (1..depth).map(|d| top as f64 * g.powi(d as i32)).sum::<f64>();
+    let sum = |g: f64| {
+        (1..depth)
+            .map(|d| top as f64 * g.powi(d as i32))
+            .sum::<f64>()
+    };
     let (mut lo, mut hi) = (1e-6f64, nodes as f64);
     for _ in 0..200 {
         let mid = 0.5 * (lo + hi);
@@ -322,9 +329,7 @@ fn level_sizes(nodes: usize, depth: usize) -> Vec<usize> {
             hi = mid;
         }
     }
-    let ideal: Vec<f64> = (0..depth)
-        .map(|d| top as f64 * lo.powi(d as i32))
-        .collect();
+    let ideal: Vec<f64> = (0..depth).map(|d| top as f64 * lo.powi(d as i32)).collect();
     let mut n: Vec<usize> = ideal.iter().map(|&x| (x.floor() as usize).max(2)).collect();
     n[0] = top;
     let mut total: usize = n.iter().sum();
@@ -359,7 +364,10 @@ fn build_tree(nodes: usize, depth: usize, seed: u64) -> anyhow::Result<Tree> {
         "--nodes must be at least 2 × depth = {} (two nodes per level), found {nodes}",
         2 * depth
     );
-    ensure!(nodes <= u32::MAX as usize / 2, "--nodes {nodes} is too large");
+    ensure!(
+        nodes <= u32::MAX as usize / 2,
+        "--nodes {nodes} is too large"
+    );
     let sizes = level_sizes(nodes, depth);
     debug_assert_eq!(sizes.iter().sum::<usize>(), nodes);
     let mut rng = Rng::new(seed, u64::MAX);
@@ -401,7 +409,11 @@ fn build_tree(nodes: usize, depth: usize, seed: u64) -> anyhow::Result<Tree> {
         }
         level = next;
     }
-    ensure!(parent.len() == nodes, "internal: built {} nodes", parent.len());
+    ensure!(
+        parent.len() == nodes,
+        "internal: built {} nodes",
+        parent.len()
+    );
     let mut group_of = vec![0; nodes];
     for (g, kids) in groups.iter().enumerate() {
         for &c in kids {
@@ -520,13 +532,18 @@ pub fn generate(spec: &Spec, out: &Path) -> anyhow::Result<Summary> {
 
     let logits_path = out.join("logits.npy");
     let mut logits = create(&logits_path)?;
-    let header = hedgerow_core::npy::header_bytes(spec.dtype.descr(), &[spec.rows, m as u64], false);
+    let header =
+        hedgerow_core::npy::header_bytes(spec.dtype.descr(), &[spec.rows, m as u64], false);
     logits.write_all(&header)?;
     let mut labels = create(&out.join("labels.csv"))?;
     labels.write_all(b"row,label\n")?;
     let mut objectness = if spec.objectness {
         let mut w = create(&out.join("objectness.npy"))?;
-        w.write_all(&hedgerow_core::npy::header_bytes("<f4", &[spec.rows], false))?;
+        w.write_all(&hedgerow_core::npy::header_bytes(
+            "<f4",
+            &[spec.rows],
+            false,
+        ))?;
         Some(w)
     } else {
         None
@@ -613,17 +630,23 @@ mod tests {
     };
 
     fn temp_dir(tag: &str) -> PathBuf {
-        let dir = std::env::temp_dir().join(format!(
-            "hedgerow-gen-batch-{tag}-{}",
-            std::process::id()
-        ));
+        let dir =
+            std::env::temp_dir().join(format!("hedgerow-gen-batch-{tag}-{}", std::process::id()));
         let _ = std::fs::remove_dir_all(&dir);
         dir
     }
 
     #[test]
     fn level_sizes_are_exact() {
-        for (m, d) in [(24, 12), (40, 5), (500, 6), (2000, 12), (175, 5), (7, 1), (10, 5)] {
+        for (m, d) in [
+            (24, 12),
+            (40, 5),
+            (500, 6),
+            (2000, 12),
+            (175, 5),
+            (7, 1),
+            (10, 5),
+        ] {
             let n = level_sizes(m, d);
             assert_eq!(n.len(), d, "{m} {d}");
             assert_eq!(n.iter().sum::<usize>(), m, "{m} {d}: {n:?}");
@@ -645,9 +668,19 @@ mod tests {
         generate(&spec, &a)?;
         generate(&spec, &b)?;
         assert!(is_current(&spec, &a));
-        assert!(!is_current(&Spec { seed: 10, ..spec.clone() }, &a));
+        assert!(!is_current(
+            &Spec {
+                seed: 10,
+                ..spec.clone()
+            },
+            &a
+        ));
         for name in ["taxonomy.csv", "logits.npy", "labels.csv", "objectness.npy"] {
-            assert_eq!(std::fs::read(a.join(name))?, std::fs::read(b.join(name))?, "{name}");
+            assert_eq!(
+                std::fs::read(a.join(name))?,
+                std::fs::read(b.join(name))?,
+                "{name}"
+            );
         }
 
         let tax = Taxonomy::parse(&std::fs::read(a.join("taxonomy.csv"))?, "taxonomy.csv")
@@ -680,7 +713,10 @@ mod tests {
         .map_err(|e| anyhow::anyhow!("{e:?}"))?;
         assert_eq!(batch.len(), 600);
         let background = batch.background_rows();
-        assert!((30..=90).contains(&background), "{background} background rows");
+        assert!(
+            (30..=90).contains(&background),
+            "{background} background rows"
+        );
         let coarse = batch.coarse_share(&tax).unwrap_or(0.0);
         assert!((0.07..0.25).contains(&coarse), "coarse share {coarse}");
         let m = evaluate(&tax, &batch, &Settings::default());

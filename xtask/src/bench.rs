@@ -9,6 +9,11 @@
 //! metrics on the same batch) and `peer.py --json`; then the wasm figures in headless Chromium
 //! (`bench-wasm`) when Chromium is installed.
 //!
+//! The machine may be shared: native figures are the best of three runs of `hedgerow bench`,
+//! the wasm ones the best of three rounds in one page, numpy's per-change figure is given as
+//! median and fastest of its changes (the ratio against the target uses numpy's fastest), and
+//! the load average at the start and end of the run is recorded.
+//!
 //! The peer runs with OPENBLAS_CORETYPE and OPENBLAS_L2_SIZE removed from its environment (both
 //! together; they may be set on a machine to pin a slower kernel); the kernel in use is reported
 //! from threadpoolctl. Nothing else changes them. This is not part of `cargo xtask test`.
@@ -32,11 +37,13 @@ const USAGE: &str = "usage: cargo xtask bench [--rows N] [--quick] [--no-wasm] [
   --quick          100000 rows, fewer repeats (a smoke run; BENCHMARKS.md is not written)
   --no-wasm        skip the headless-Chromium figures
   --no-deep        skip the depth-12 batch
-  --peer-repeat N  threshold changes the numpy peer times (default 3; the median is reported)
+  --peer-repeat N  threshold changes the numpy peer times (default 5; median and best reported)
   --no-write       print the table only";
 
-/// The settings every timed run uses.
-const THRESHOLDS: &str = "0.5";
+/// The settings every timed run uses: 0.5 at every depth, written out for twelve depths so
+/// that `hedgerow bench` (which moves the listed values only) changes every depth in turn, as
+/// the wasm benchmark and the peer do.
+const THRESHOLDS: &str = "0.5,0.5,0.5,0.5,0.5,0.5,0.5,0.5,0.5,0.5,0.5,0.5";
 const OBJECT_THRESHOLD: &str = "0.5";
 
 /// The main large batch: 1M rows, 500 nodes, depth 6, float16 (≈ 1 GB).
@@ -89,7 +96,13 @@ pub fn ensure_batch(spec: &Spec, dir: &Path) -> anyhow::Result<()> {
     if cfg!(debug_assertions) {
         let cargo = std::env::var_os("CARGO").unwrap_or_else(|| "cargo".into());
         let mut args: Vec<String> = [
-            "run", "--quiet", "--release", "--package", "xtask", "--", "gen-batch",
+            "run",
+            "--quiet",
+            "--release",
+            "--package",
+            "xtask",
+            "--",
+            "gen-batch",
         ]
         .iter()
         .map(|s| s.to_string())
@@ -122,10 +135,7 @@ pub fn ensure_batch(spec: &Spec, dir: &Path) -> anyhow::Result<()> {
         eprintln!("bench: the release gen-batch failed ({status}); generating in this process");
     }
     let s = batch::generate(spec, dir)?;
-    eprintln!(
-        "bench: wrote {} bytes in {:.1} s",
-        s.total_bytes, s.seconds
-    );
+    eprintln!("bench: wrote {} bytes in {:.1} s", s.total_bytes, s.seconds);
     Ok(())
 }
 
@@ -144,13 +154,17 @@ fn parse(args: &[String]) -> anyhow::Result<Option<Options>> {
         quick: false,
         wasm: true,
         deep: true,
-        peer_repeat: 3,
+        peer_repeat: 5,
         write: true,
     };
     let mut rows_given = false;
     let mut it = args.iter();
     while let Some(arg) = it.next() {
-        let mut value = || it.next().cloned().with_context(|| format!("{arg} needs a value"));
+        let mut value = || {
+            it.next()
+                .cloned()
+                .with_context(|| format!("{arg} needs a value"))
+        };
         match arg.as_str() {
             "--rows" => {
                 o.rows = value()?.replace('_', "").parse().context("--rows")?;
@@ -184,8 +198,11 @@ struct Case {
     native: Value,
     cli_metrics: Value,
     peer: Value,
-    /// Peer metrics equal to the CLI's (counts exact, ratios within 1e-9)?
+    /// Peer metrics (float32) equal to the CLI's (counts exact, ratios within 1e-9)?
     peer_equal: Result<(), String>,
+    /// The same for a float64 peer run (the contract's precision), where memory allows.
+    peer64_equal: Option<Result<(), String>>,
+    /// wasm figures (the page's build profile).
     wasm: Option<Value>,
     wasm_equal: Option<Result<(), String>>,
 }
@@ -297,12 +314,32 @@ fn equal(ours: &Value, theirs: &Value) -> Result<(), String> {
     let mut diffs = Vec::new();
     compare(ours, theirs, "", &mut diffs);
     if diffs.is_empty() {
-        Ok(())
-    } else {
-        let n = diffs.len();
-        diffs.truncate(4);
-        Err(format!("{n} differences: {}", diffs.join("; ")))
+        return Ok(());
     }
+    // How many rows decode differently: moves between (stop depth, outcome) cells and into or
+    // out of abstention, each counted once.
+    let count = |v: &Value| v.as_i64().unwrap_or(0);
+    let mut moved = (count(&ours["abstained"]) - count(&theirs["abstained"])).abs();
+    if let (Some(a), Some(b)) = (
+        ours["stop_count"].as_array(),
+        theirs["stop_count"].as_array(),
+    ) {
+        for (x, y) in a.iter().zip(b) {
+            for k in ["correct", "unverifiable", "wrong"] {
+                moved += (count(&x[k]) - count(&y[k])).abs();
+            }
+        }
+    }
+    let n = diffs.len();
+    if moved > 0 {
+        return Err(format!(
+            "{} of {} rows decode differently ({n} keys differ)",
+            (moved + 1) / 2,
+            ours["rows"]
+        ));
+    }
+    diffs.truncate(3);
+    Err(format!("{n} keys differ: {}", diffs.join("; ")))
 }
 
 /// The peer's metric keys of a CLI/wasm metrics object (drops `rule`, `unverifiable_policy`).
@@ -320,6 +357,7 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
         return Ok(());
     };
     let started = Instant::now();
+    let load_at_start = loadavg();
     let root = crate::root();
     let command = std::iter::once("cargo xtask bench".to_string())
         .chain(args.iter().cloned())
@@ -371,22 +409,52 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
             ensure_batch(spec, dir)?;
         }
     }
+    // Write freshly generated gigabytes back now, not while something is being timed.
+    let _ = Command::new("sync").status();
 
-    let repeat_native = if opts.quick { "20" } else { "50" };
+    let repeat_native = if opts.quick { "20" } else { "200" };
+    let native_runs = if opts.quick { 1 } else { 3 };
     let mut results = Vec::new();
-    for (name, dir, _) in &cases {
+    for (name, dir, spec) in &cases {
         eprintln!("\n==> {name}: {}", dir.display());
         warm(&dir.join("logits.npy"))?;
-        let mut cmd = Command::new(&hedgerow);
-        cmd.arg("bench")
-            .args(input_args(dir))
-            .args(settings_args())
-            .args(["--repeat", repeat_native]);
-        let native = output_json(&mut cmd, "hedgerow bench")?;
+        // Best of a few runs of `hedgerow bench` (each figure its own minimum): the machine
+        // may be shared, and a busy moment only ever makes a run slower.
+        let mut native = Value::Null;
+        for _ in 0..native_runs {
+            let mut cmd = Command::new(&hedgerow);
+            cmd.arg("bench")
+                .args(input_args(dir))
+                .args(settings_args())
+                .args(["--repeat", repeat_native]);
+            let run = output_json(&mut cmd, "hedgerow bench")?;
+            if native.is_null() {
+                native = run;
+                continue;
+            }
+            for k in [
+                "load_seconds",
+                "evaluate_seconds_median",
+                "evaluate_seconds_min",
+                "curve_seconds",
+                "drag_move_seconds_median",
+                "drag_build_seconds",
+                "curve_drawn_sweep_seconds",
+                "curve_index_seconds",
+            ] {
+                if f(&run[k]) < f(&native[k]) {
+                    native[k] = run[k].clone();
+                }
+            }
+        }
+        native["runs"] = native_runs.into();
         eprintln!(
             "  native: load {:.2} s, evaluate {:.2} ms, curve {:.2} s",
             native["load_seconds"].as_f64().unwrap_or(f64::NAN),
-            native["evaluate_seconds_median"].as_f64().unwrap_or(f64::NAN) * 1e3,
+            native["evaluate_seconds_median"]
+                .as_f64()
+                .unwrap_or(f64::NAN)
+                * 1e3,
             native["curve_seconds"].as_f64().unwrap_or(f64::NAN)
         );
         let mut cmd = Command::new(&hedgerow);
@@ -399,7 +467,12 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
         cmd.arg(&peer_py)
             .arg("--data")
             .arg(dir)
-            .args(["--thresholds", THRESHOLDS, "--object-threshold", OBJECT_THRESHOLD])
+            .args([
+                "--thresholds",
+                THRESHOLDS,
+                "--object-threshold",
+                OBJECT_THRESHOLD,
+            ])
             .args(["--repeat", &opts.peer_repeat.to_string(), "--json"]);
         let peer = output_json(&mut cmd, "peer.py")?;
         eprintln!(
@@ -411,6 +484,32 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
         if let Err(e) = &peer_equal {
             eprintln!("  numpy peer (float32) vs CLI: {e}");
         }
+        // The contract's precision once more, where its two float64 matrices fit (8 bytes per
+        // logit each): the demo data are checked in nine settings above.
+        let elements = f(&native["rows"]) * f(&native["nodes"]);
+        let peer64_equal = if spec.is_some() && elements * 16.0 < 10e9 {
+            let mut cmd = python_cmd(&python);
+            cmd.arg(&peer_py)
+                .arg("--data")
+                .arg(dir)
+                .args([
+                    "--thresholds",
+                    THRESHOLDS,
+                    "--object-threshold",
+                    OBJECT_THRESHOLD,
+                ])
+                .args(["--repeat", "1", "--precision", "float64", "--json"]);
+            let peer64 = output_json(&mut cmd, "peer.py --precision float64")?;
+            let r = equal(&peer64["metrics"], &comparable(&cli_metrics));
+            eprintln!(
+                "  numpy peer (float64) vs CLI: {}",
+                r.as_ref().err().map_or("equal", |e| e.as_str())
+            );
+            Some(r)
+        } else {
+            None
+        };
+
         results.push(Case {
             name: name.clone(),
             dir: dir.clone(),
@@ -418,6 +517,7 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
             cli_metrics,
             peer,
             peer_equal,
+            peer64_equal,
             wasm: None,
             wasm_equal: None,
         });
@@ -425,8 +525,6 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
 
     let mut wasm_note = String::new();
     if opts.wasm && wasm::browser_available() {
-        eprintln!("\n==> wasm in headless Chromium");
-        let site = wasm::build_site(false)?;
         let mut jobs = Vec::new();
         let mut which = Vec::new();
         for (i, c) in results.iter().enumerate().skip(1) {
@@ -440,8 +538,10 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
             jobs.push(job);
             which.push(i);
         }
+        eprintln!("\n==> wasm in headless Chromium");
+        let site = wasm::build_site(None)?;
         let figures = wasm::measure(&site, &jobs)?;
-        for (i, v) in which.into_iter().zip(figures) {
+        for (&i, v) in which.iter().zip(figures) {
             let c = &mut results[i];
             c.wasm_equal = Some(equal(
                 &comparable(&v["evaluate"]["metrics"]),
@@ -456,9 +556,13 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
 
     let machine = machine(&results);
     let table = render(&results, &opts);
+    let targets = targets(&results);
     let elapsed = started.elapsed().as_secs_f64();
     let report = format!(
-        "{table}\n{wasm_note}\nCommand: `{command}` ({elapsed:.0} s in all).\n\n{machine}"
+        "{table}\n{targets}\n{wasm_note}\nCommand: `{command}` ({elapsed:.0} s in all).\n\n{machine}\
+         Load average (1 min) at the start and the end of the run: {load_at_start}, {}; other \
+         work on the machine during a run shows up as noise in the figures.\n",
+        loadavg()
     );
     println!("\n{report}");
     if opts.write {
@@ -471,9 +575,9 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
 }
 
 fn fmt_rows(n: u64) -> String {
-    if n >= 1_000_000 && n % 1_000_000 == 0 {
+    if n >= 1_000_000 && n / 1_000_000 * 1_000_000 == n {
         format!("{}M", n / 1_000_000)
-    } else if n >= 1000 && n % 1000 == 0 {
+    } else if n >= 1000 && n / 1000 * 1000 == n {
         format!("{}k", n / 1000)
     } else {
         n.to_string()
@@ -492,103 +596,243 @@ fn cell(x: f64, digits: usize) -> String {
     }
 }
 
+fn mb(c: &Case) -> f64 {
+    f(&c.native["logits_bytes"]) / 1e6
+}
+fn native_rate(c: &Case) -> f64 {
+    mb(c) / f(&c.native["load_seconds"])
+}
+fn numpy_rate(c: &Case) -> f64 {
+    mb(c) / f(&c.peer["ingest_seconds"])
+}
+fn ours_ms(c: &Case) -> f64 {
+    f(&c.native["evaluate_seconds_median"]) * 1e3
+}
+fn numpy_ms(c: &Case) -> f64 {
+    f(&c.peer["change_seconds_median"]) * 1e3
+}
+/// numpy's fastest threshold change.
+fn numpy_best_ms(c: &Case) -> f64 {
+    c.peer["change_seconds"]
+        .as_array()
+        .map(|a| a.iter().map(f).fold(f64::INFINITY, f64::min))
+        .unwrap_or(f64::NAN)
+        * 1e3
+}
+/// A wasm figure; `keys` is the path into its JSON.
+fn wasm_f(c: &Case, keys: &[&str]) -> f64 {
+    c.wasm
+        .as_ref()
+        .map(|w| f(keys.iter().fold(w, |v, k| &v[*k])))
+        .unwrap_or(f64::NAN)
+}
+fn wasm_ingest_s(c: &Case) -> f64 {
+    wasm_f(c, &["ingest_ms"]) / 1e3
+}
+fn wasm_eval_ms(c: &Case) -> f64 {
+    wasm_f(c, &["evaluate", "evaluate_ms_median"])
+}
+fn wasm_eval_min_ms(c: &Case) -> f64 {
+    wasm_f(c, &["evaluate", "evaluate_ms_min"])
+}
+fn ours_min_ms(c: &Case) -> f64 {
+    f(&c.native["evaluate_seconds_min"]) * 1e3
+}
+fn wasm_curve_s(c: &Case) -> f64 {
+    wasm_f(c, &["curve", "curve_ms"]) / 1e3
+}
+fn rows_of(c: &Case) -> u64 {
+    c.native["rows"].as_u64().unwrap_or(0)
+}
+
+fn check_cell(r: &Option<Result<(), String>>) -> String {
+    match r {
+        Some(Ok(())) => "equal".into(),
+        Some(Err(e)) => e.clone(),
+        None => "–".into(),
+    }
+}
+
 /// The table of figures and ratios, as Markdown.
 fn render(cases: &[Case], opts: &Options) -> String {
     let mut rows: Vec<(String, Vec<String>)> = Vec::new();
     let mut add = |label: &str, values: Vec<String>| rows.push((label.to_string(), values));
     let per = |g: &dyn Fn(&Case) -> String| cases.iter().map(g).collect::<Vec<_>>();
-    let mb = |c: &Case| f(&c.native["logits_bytes"]) / 1e6;
-    let native_rate = |c: &Case| mb(c) / f(&c.native["load_seconds"]);
-    let numpy_rate = |c: &Case| mb(c) / f(&c.peer["ingest_seconds"]);
-    let wasm_f = |c: &Case, k: &str, sub: &str| {
-        c.wasm
-            .as_ref()
-            .map(|w| if sub.is_empty() { f(&w[k]) } else { f(&w[k][sub]) })
-            .unwrap_or(f64::NAN)
-    };
-    let wasm_rate = |c: &Case| mb(c) / (wasm_f(c, "ingest_ms", "") / 1e3);
-    let ours_ms = |c: &Case| f(&c.native["evaluate_seconds_median"]) * 1e3;
-    let numpy_ms = |c: &Case| f(&c.peer["change_seconds_median"]) * 1e3;
 
-    add("rows × nodes, depth", per(&|c| {
-        format!(
-            "{} × {}, {}",
-            fmt_rows(c.native["rows"].as_u64().unwrap_or(0)),
-            c.native["nodes"],
-            c.native["depth"]
-        )
-    }));
+    add(
+        "rows × nodes, depth",
+        per(&|c| {
+            format!(
+                "{} × {}, {}",
+                fmt_rows(rows_of(c)),
+                c.native["nodes"],
+                c.native["depth"]
+            )
+        }),
+    );
     add("logits file (MB)", per(&|c| cell(mb(c), 1)));
-    add("**ingest** ours native: s (MB/s)", per(&|c| {
-        format!("{} ({})", cell(f(&c.native["load_seconds"]), 2), cell(native_rate(c), 0))
-    }));
-    add("ingest numpy: s (MB/s)", per(&|c| {
-        format!(
-            "{} ({}) = load {} + prepare {} + softmax+descent {}",
-            cell(f(&c.peer["ingest_seconds"]), 2),
-            cell(numpy_rate(c), 0),
-            cell(f(&c.peer["np_load_seconds"]), 2),
-            cell(f(&c.peer["prepare_seconds"]), 2),
-            cell(f(&c.peer["softmax_descent_seconds"]), 2)
-        )
-    }));
-    add("ingest rate ours native ÷ numpy (target ≥ 1)", per(&|c| {
-        cell(native_rate(c) / numpy_rate(c), 1)
-    }));
-    add("ingest wasm: s (MB/s)", per(&|c| {
-        format!(
-            "{} ({})",
-            cell(wasm_f(c, "ingest_ms", "") / 1e3, 2),
-            cell(wasm_rate(c), 0)
-        )
-    }));
-    add("ingest rate wasm ÷ numpy native (target ≥ 0.5)", per(&|c| {
-        cell(wasm_rate(c) / numpy_rate(c), 1)
-    }));
-    add("**per threshold change** ours native (ms, median)", per(&|c| {
-        cell(ours_ms(c), 2)
-    }));
-    add("per threshold change numpy, from the logits (ms, median)", per(&|c| {
-        cell(numpy_ms(c), 0)
-    }));
-    add("numpy ÷ ours (target ≥ 100)", per(&|c| cell(numpy_ms(c) / ours_ms(c), 0)));
-    add("numpy from cached paths, stop + metrics only (ms; for scale)", per(&|c| {
-        cell(f(&c.peer["cached_evaluate_seconds_median"]) * 1e3, 0)
-    }));
-    add("evaluate wasm (ms, median; target ≤ 20 at 1M)", per(&|c| {
-        cell(wasm_f(c, "evaluate", "evaluate_ms_median"), 2)
-    }));
-    add("evaluate wasm ÷ native", per(&|c| {
-        cell(wasm_f(c, "evaluate", "evaluate_ms_median") / ours_ms(c), 1)
-    }));
-    add("exact curve native (s)", per(&|c| cell(f(&c.native["curve_seconds"]), 3)));
-    add("exact curve wasm (s; target ≤ 1.5 at 1M)", per(&|c| {
-        cell(wasm_f(c, "curve", "curve_ms") / 1e3, 3)
-    }));
-    add("curve points", per(&|c| c.native["curve_points"].to_string()));
-    add("bytes per row held (paths)", per(&|c| c.native["path_bytes_per_row"].to_string()));
-    add("peak RSS ours / numpy (MB)", per(&|c| {
-        format!(
-            "{} / {}",
-            cell(f(&c.native["peak_rss_bytes"]) / 1e6, 0),
-            cell(f(&c.peer["peak_rss_bytes"]) / 1e6, 0)
-        )
-    }));
-    add("numpy peer (float32) metrics = CLI", per(&|c| match &c.peer_equal {
-        Ok(()) => "equal".into(),
-        Err(e) => format!("differ: {e}"),
-    }));
-    add("wasm metrics = CLI", per(&|c| match &c.wasm_equal {
-        Some(Ok(())) => "equal".into(),
-        Some(Err(e)) => format!("differ: {e}"),
-        None => "–".into(),
-    }));
+    add(
+        "**ingest**: ours native, s (MB/s)",
+        per(&|c| {
+            format!(
+                "{} ({})",
+                cell(f(&c.native["load_seconds"]), 2),
+                cell(native_rate(c), 0)
+            )
+        }),
+    );
+    add(
+        "ingest: numpy, s (MB/s) = np.load + prepare + softmax & descent",
+        per(&|c| {
+            format!(
+                "{} ({}) = {} + {} + {}",
+                cell(f(&c.peer["ingest_seconds"]), 2),
+                cell(numpy_rate(c), 0),
+                cell(f(&c.peer["np_load_seconds"]), 2),
+                cell(f(&c.peer["prepare_seconds"]), 2),
+                cell(f(&c.peer["softmax_descent_seconds"]), 2)
+            )
+        }),
+    );
+    add(
+        "ingest rate: ours native ÷ numpy (target ≥ 1)",
+        per(&|c| cell(native_rate(c) / numpy_rate(c), 1)),
+    );
+    add(
+        "ingest: wasm, s (MB/s)",
+        per(&|c| {
+            format!(
+                "{} ({})",
+                cell(wasm_ingest_s(c), 2),
+                cell(mb(c) / wasm_ingest_s(c), 0)
+            )
+        }),
+    );
+    add(
+        "ingest rate: wasm ÷ numpy native (target ≥ 0.5)",
+        per(&|c| cell(mb(c) / wasm_ingest_s(c) / numpy_rate(c), 1)),
+    );
+    add(
+        "**per threshold change**: ours native, ms (median)",
+        per(&|c| cell(ours_ms(c), 2)),
+    );
+    add(
+        "per threshold change: ours native, fastest change, ms",
+        per(&|c| cell(ours_min_ms(c), 2)),
+    );
+    add(
+        "per threshold change: numpy from the logits, ms (median)",
+        per(&|c| cell(numpy_ms(c), 0)),
+    );
+    add(
+        "per threshold change: numpy fastest of its changes, ms",
+        per(&|c| cell(numpy_best_ms(c), 0)),
+    );
+    add(
+        "numpy ÷ ours, median ÷ median",
+        per(&|c| cell(numpy_ms(c) / ours_ms(c), 0)),
+    );
+    add(
+        "**numpy ÷ ours, numpy's fastest ÷ our median (target ≥ 100)**",
+        per(&|c| cell(numpy_best_ms(c) / ours_ms(c), 0)),
+    );
+    add(
+        "per threshold change, dragging one depth (what the page does): ours native, ms (median)",
+        per(&|c| cell(f(&c.native["drag_move_seconds_median"]) * 1e3, 3)),
+    );
+    add(
+        "numpy ÷ ours when dragging, numpy's fastest ÷ our median",
+        per(&|c| {
+            cell(
+                numpy_best_ms(c) / (f(&c.native["drag_move_seconds_median"]) * 1e3),
+                0,
+            )
+        }),
+    );
+    add(
+        "drag index for one depth, built on focus: ours native, ms",
+        per(&|c| cell(f(&c.native["drag_build_seconds"]) * 1e3, 1)),
+    );
+    add(
+        "numpy from cached paths, stop + metrics only, ms (for scale)",
+        per(&|c| cell(f(&c.peer["cached_evaluate_seconds_median"]) * 1e3, 0)),
+    );
+    add(
+        "evaluate wasm, ms (median; target ≤ 20 at 1M)",
+        per(&|c| cell(wasm_eval_ms(c), 2)),
+    );
+    add(
+        "evaluate wasm, fastest change, ms",
+        per(&|c| cell(wasm_eval_min_ms(c), 2)),
+    );
+    add(
+        "evaluate wasm ÷ native",
+        per(&|c| cell(wasm_eval_ms(c) / ours_ms(c), 1)),
+    );
+    add(
+        "**exact curve**: native, s",
+        per(&|c| cell(f(&c.native["curve_seconds"]), 3)),
+    );
+    add(
+        "exact curve: wasm, s (target ≤ 1.5 at 1M)",
+        per(&|c| cell(wasm_curve_s(c), 3)),
+    );
+    add(
+        "curve points",
+        per(&|c| c.native["curve_points"].to_string()),
+    );
+    add(
+        "curve as the page draws it (to 1/2000): native, s (sort + sweep) and points",
+        per(&|c| {
+            format!(
+                "{} ({})",
+                cell(
+                    f(&c.native["curve_index_seconds"]) + f(&c.native["curve_drawn_sweep_seconds"]),
+                    3
+                ),
+                c.native["curve_drawn_points"]
+            )
+        }),
+    );
+    add(
+        "bytes held per row (paths)",
+        per(&|c| c.native["path_bytes_per_row"].to_string()),
+    );
+    add(
+        "peak RSS, MB: ours native / numpy",
+        per(&|c| {
+            format!(
+                "{} / {}",
+                cell(f(&c.native["peak_rss_bytes"]) / 1e6, 0),
+                cell(f(&c.peer["peak_rss_bytes"]) / 1e6, 0)
+            )
+        }),
+    );
+    add(
+        "numpy peer float32 metrics = CLI",
+        per(&|c| check_cell(&Some(c.peer_equal.clone()))),
+    );
+    add(
+        "numpy peer float64 metrics = CLI",
+        per(&|c| {
+            if c.peer64_equal.is_none() && c.name == "demo data" {
+                "equal (nine settings, above)".into()
+            } else {
+                check_cell(&c.peer64_equal)
+            }
+        }),
+    );
+    add("wasm metrics = CLI", per(&|c| check_cell(&c.wasm_equal)));
 
     let mut s = String::new();
     let _ = writeln!(
         s,
         "| | {} |",
-        cases.iter().map(|c| c.name.as_str()).collect::<Vec<_>>().join(" | ")
+        cases
+            .iter()
+            .map(|c| c.name.as_str())
+            .collect::<Vec<_>>()
+            .join(" | ")
     );
     let _ = writeln!(s, "|---|{}", "---|".repeat(cases.len()));
     for (label, values) in rows {
@@ -598,11 +842,16 @@ fn render(cases: &[Case], opts: &Options) -> String {
         .iter()
         .filter_map(|c| {
             c.wasm.as_ref().map(|w| {
+                let fetch = f(&w["fetch_ms"]) / 1e3;
                 format!(
-                    "{}: {} (fetch of the file {} s, engine-only feed {} s)",
+                    "{}: {}{}, engine-only feed {} s",
                     c.name,
                     w["config"]["mode"].as_str().unwrap_or("?"),
-                    cell(f(&w["fetch_ms"]) / 1e3, 2),
+                    if fetch.is_finite() {
+                        format!(" (untimed fetch {} s)", cell(fetch, 1))
+                    } else {
+                        " (the time includes the local transfer)".into()
+                    },
                     cell(f(&w["ingest"]["feed_ms"]) / 1e3, 2),
                 )
             })
@@ -610,22 +859,29 @@ fn render(cases: &[Case], opts: &Options) -> String {
         .collect();
     let _ = writeln!(
         s,
-        "\nSettings: cumulative rule, thresholds {THRESHOLDS} at every depth, object threshold \
+        "\nSettings: cumulative rule, threshold 0.5 at every depth, object threshold \
          {OBJECT_THRESHOLD}, credit policy; each timed change moves one depth's threshold (the \
-         same sequence natively, in wasm and in numpy). Native and wasm evaluate: median of {} \
-         changes; numpy: median of {} changes, each recomputing softmax, descent, stop and all \
-         metrics from the logits held in memory (float32).",
-        if opts.quick { 20 } else { 50 },
+         same sequence natively, in wasm and in numpy). Native: the best of {} run(s) of \
+         `hedgerow bench` (load, evaluate median and curve each the lowest of the runs), \
+         evaluate the median of {} changes per run; wasm: the same, three rounds of the same \
+         changes in one page (lowest median) and the curve the lowest of three; numpy: median and fastest of {} changes, each recomputing softmax, \
+         descent, stop and all metrics from the logits held in memory (float32: numpy's \
+         fastest; the float64 peer is about 1.6× slower).",
+        if opts.quick { 1 } else { 3 },
+        if opts.quick { 20 } else { 200 },
         opts.peer_repeat
     );
     let _ = writeln!(
         s,
-        "\nIngest = reading the logits file (in the page cache) into greedy paths. Ours native: \
-         `hedgerow bench` load (taxonomy, labels, objectness, logits in 1 MiB reads, batch). \
-         numpy: `np.load` + one blocked transpose to node-major float32 + grouped softmax + \
-         argmax descent (labels parsing not counted). wasm: the logits fetched from a local \
-         server in 1 MiB pieces and fed to `LogitsReader` in headless Chromium, then the batch \
-         built; the time includes the JS→wasm copies. Modes: {}.",
+        "\nIngest = the logits file (in the page cache) to greedy paths. Ours native: \
+         `hedgerow bench`'s load (taxonomy, labels, objectness, logits in 1 MiB reads, batch). \
+         numpy: `np.load`, one blocked transpose to node-major float32 (what makes its \
+         per-change decode fast), grouped softmax and argmax descent (label parsing not \
+         counted). wasm: the logits served by a local server, read with `fetch`, cut into \
+         1 MiB pieces and fed to `LogitsReader` in headless Chromium, then the batch built; the \
+         time includes the JS→wasm copies. Built with the page's `wasm-release` profile \
+         (opt-level {}). Modes: {}.",
+        wasm::page_opt_level(),
         if wasm_modes.is_empty() {
             "none".to_string()
         } else {
@@ -633,6 +889,97 @@ fn render(cases: &[Case], opts: &Options) -> String {
         }
     );
     s
+}
+
+/// The issue's targets against the figures of the 1M-row batches.
+fn targets(cases: &[Case]) -> String {
+    let large: Vec<&Case> = cases.iter().filter(|c| rows_of(c) >= 1_000_000).collect();
+    if large.is_empty() {
+        return "Targets: not assessed (they are stated for 1,000,000 rows).\n".into();
+    }
+    let mut s = String::from("Targets at 1,000,000 rows:\n\n");
+    let mut line =
+        |what: &str, target: f64, at_most: bool, unit: &str, get: &dyn Fn(&Case) -> f64| {
+            let parts: Vec<String> = large
+                .iter()
+                .map(|c| {
+                    let v = get(c);
+                    let verdict = if !v.is_finite() {
+                        "not measured".to_string()
+                    } else if (at_most && v <= target) || (!at_most && v >= target) {
+                        "met".to_string()
+                    } else if at_most {
+                        format!("missed by {:.0} %", (v / target - 1.0) * 100.0)
+                    } else {
+                        format!("missed: {:.0} % of it", v / target * 100.0)
+                    };
+                    format!(
+                        "depth {} {}{unit} ({verdict})",
+                        c.native["depth"],
+                        cell(v, if unit == "×" && v >= 10.0 { 0 } else { 2 })
+                    )
+                })
+                .collect();
+            let _ = writeln!(
+                s,
+                "- {what} {} {target}{unit}: {}",
+                if at_most { "≤" } else { "≥" },
+                parts.join(", ")
+            );
+        };
+    line("evaluate natively (median)", 10.0, true, " ms", &ours_ms);
+    line(
+        "evaluate natively (fastest change)",
+        10.0,
+        true,
+        " ms",
+        &ours_min_ms,
+    );
+    line(
+        "evaluate in wasm (median)",
+        20.0,
+        true,
+        " ms",
+        &wasm_eval_ms,
+    );
+    line(
+        "evaluate in wasm (fastest change)",
+        20.0,
+        true,
+        " ms",
+        &wasm_eval_min_ms,
+    );
+    line(
+        "per threshold change, numpy's fastest change ÷ our median",
+        100.0,
+        false,
+        "×",
+        &|c| numpy_best_ms(c) / ours_ms(c),
+    );
+    line(
+        "ingest rate natively, ours ÷ numpy",
+        1.0,
+        false,
+        "×",
+        &|c| native_rate(c) / numpy_rate(c),
+    );
+    line(
+        "ingest rate in wasm ÷ numpy native",
+        0.5,
+        false,
+        "×",
+        &|c| mb(c) / wasm_ingest_s(c) / numpy_rate(c),
+    );
+    line("exact curve in wasm", 1.5, true, " s", &wasm_curve_s);
+    s
+}
+
+/// The 1-minute load average.
+fn loadavg() -> String {
+    std::fs::read_to_string("/proc/loadavg")
+        .ok()
+        .and_then(|s| s.split_whitespace().next().map(str::to_string))
+        .unwrap_or_else(|| "?".into())
 }
 
 fn sh(cmd: &str, args: &[&str]) -> String {
@@ -686,7 +1033,10 @@ fn machine(cases: &[Case]) -> String {
         })
         .unwrap_or_default();
     let chromium = sh(
-        &crate::e2e::Config::from_env().chromium.display().to_string(),
+        &crate::e2e::Config::from_env()
+            .chromium
+            .display()
+            .to_string(),
         &["--version"],
     );
     let date = sh("date", &["-u", "+%Y-%m-%d %H:%M UTC"]);
@@ -704,9 +1054,9 @@ fn benchmarks_md(report: &str) -> String {
         "# Benchmarks\n\n\
          hedgerow against a vectorised numpy peer (`tests/python/peer.py`) on the same files in \
          one run, natively and compiled to wasm in headless Chromium. Absolute times vary by \
-         machine; the ratios are the point. Regenerate with `cargo xtask bench` (about ten \
-         minutes; the batches are generated under `target/bench-data/` by `cargo xtask \
-         gen-batch` and reused). Criterion benchmarks of the engine alone: `cargo bench -p \
+         machine; the ratios are the point. Regenerate with `cargo xtask bench` (a few \
+         minutes; the batches, 3 GB, are generated under `target/bench-data/` by `cargo xtask \
+         gen-batch` on the first run and reused). Criterion benchmarks of the engine alone: `cargo bench -p \
          hedgerow-core`. The wasm figures alone: `cargo xtask bench-wasm`.\n\n\
          The numpy peer is checked to compute the same metrics as `hedgerow evaluate --json` \
          on the demo data (nine settings, float32 and float64, counts exact, ratios within \

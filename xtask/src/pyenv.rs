@@ -14,7 +14,11 @@ const REQUIREMENTS: &str = "tests/python/requirements.txt";
 /// A copy of the requirements last installed into the venv.
 const STAMP: &str = "hedgerow-requirements.txt";
 /// The check scripts, run in this order.
-const CHECKS: [&str; 2] = ["tests/python/check_cli.py", "tests/python/check_hiclass.py"];
+const CHECKS: [&str; 3] = [
+    "tests/python/check_cli.py",
+    "tests/python/check_hiclass.py",
+    "tests/python/peer.py",
+];
 
 fn venv_python(venv: &Path) -> PathBuf {
     if cfg!(windows) {

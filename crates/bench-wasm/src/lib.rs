@@ -150,13 +150,7 @@ impl Session {
             thresholds: Thresholds {
                 object: object_threshold,
                 depths: (1..=depth.max(1))
-                    .map(|d| {
-                        depths
-                            .get(d - 1)
-                            .or(depths.last())
-                            .copied()
-                            .unwrap_or(0.5)
-                    })
+                    .map(|d| depths.get(d - 1).or(depths.last()).copied().unwrap_or(0.5))
                     .collect(),
                 nodes: Vec::new(),
             },
@@ -193,21 +187,33 @@ impl Session {
         .to_string())
     }
 
-    /// Time the exact curve (cumulative rule, credit policy) once.
-    pub fn curve(&self, object_threshold: f64) -> Result<String, JsError> {
+    /// Time the exact curve (cumulative rule, credit policy) `repeat` times; the fastest is
+    /// reported as `curve_ms` (a busy moment on the machine only ever makes a run slower).
+    pub fn curve(&self, object_threshold: f64, repeat: usize) -> Result<String, JsError> {
         let batch = self
             .batch
             .as_ref()
             .ok_or_else(|| js_err("no batch: call finish first"))?;
-        let t = now_ms();
-        let points = exact_curve(
-            &self.tax,
-            batch,
-            Rule::Cumulative,
-            object_threshold,
-            Policy::Credit,
-        );
-        let ms = now_ms() - t;
-        Ok(serde_json::json!({ "curve_ms": ms, "curve_points": points.len() }).to_string())
+        let mut times = Vec::new();
+        let mut points = 0;
+        for _ in 0..repeat.max(1) {
+            let t = now_ms();
+            let curve = exact_curve(
+                &self.tax,
+                batch,
+                Rule::Cumulative,
+                object_threshold,
+                Policy::Credit,
+            );
+            times.push(now_ms() - t);
+            points = curve.len();
+        }
+        Ok(serde_json::json!({
+            "curve_ms": times.iter().copied().fold(f64::INFINITY, f64::min),
+            "curve_ms_median": median(times.clone()),
+            "curve_ms_all": times,
+            "curve_points": points,
+        })
+        .to_string())
     }
 }

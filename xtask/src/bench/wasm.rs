@@ -3,7 +3,7 @@
 //! threshold changes, exact curve) for a batch made by `gen-batch`.
 //!
 //! Steps: build `crates/bench-wasm` for wasm32 with the page's profile (`wasm-release`, so the
-//! figures are the page's; `--opt3` overrides its opt-level to 3 for comparison), run the
+//! figures are the page's; `--opt-level X` overrides its opt-level for comparison), run the
 //! bindgen step of `web.rs` (no-modules glue), put the glue, the wasm and
 //! `crates/bench-wasm/www/` into `target/bench-wasm/site/`, serve `target/` with `web.rs`'s
 //! static server on 127.0.0.1, open the page through the e2e harness (chromedriver + headless
@@ -30,14 +30,14 @@ const TARGET: &str = "wasm32-unknown-unknown";
 const PROFILE: &str = "wasm-release";
 
 const USAGE: &str = "usage: cargo xtask bench-wasm [--data DIR] [--mode buffered|streamed] \
-[--chunk BYTES] [--repeat N] [--thresholds T] [--object-threshold X] [--opt3] [--no-build]
+[--chunk BYTES] [--repeat N] [--thresholds T] [--object-threshold X] [--opt-level X] [--no-build]
 
   --data DIR     a batch made by gen-batch (default: target/bench-data/rows1000000-nodes500-depth6,
                  generated if missing); must be under target/
   --mode M       buffered (default: fetch all, then time feeding) or streamed (feed as fetched)
   --chunk BYTES  piece size fed to the engine (default 1048576)
   --repeat N     threshold changes to time (default 50; the median is reported)
-  --opt3         build with opt-level 3 instead of the page's profile setting (s)
+  --opt-level X  build with opt-level X (0-3, s, z) instead of the page profile's setting
   --no-build     use target/bench-wasm/site as it is
 
 env: HEDGEROW_CHROMIUM, HEDGEROW_CHROMEDRIVER (default /usr/bin/chromium, /usr/bin/chromedriver)";
@@ -49,9 +49,13 @@ pub struct Job {
     pub mode: String,
     pub chunk: usize,
     pub repeat: usize,
+    /// Rounds of `repeat` changes (the lowest median is kept).
+    pub rounds: usize,
     pub thresholds: String,
     pub object_threshold: f64,
     pub curve: bool,
+    /// Curve runs (the median is reported).
+    pub curve_repeat: usize,
 }
 
 impl Job {
@@ -61,9 +65,11 @@ impl Job {
             mode: "buffered".into(),
             chunk: 1 << 20,
             repeat: 50,
+            rounds: 3,
             thresholds: "0.5".into(),
             object_threshold: 0.5,
             curve: true,
+            curve_repeat: 3,
         }
     }
 }
@@ -81,10 +87,14 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
             .join(super::default_large().dir_name()),
     );
     let mut data_given = false;
-    let (mut opt3, mut build) = (false, true);
+    let (mut opt_level, mut build) = (None, true);
     let mut it = args.iter();
     while let Some(arg) = it.next() {
-        let mut value = || it.next().cloned().with_context(|| format!("{arg} needs a value"));
+        let mut value = || {
+            it.next()
+                .cloned()
+                .with_context(|| format!("{arg} needs a value"))
+        };
         match arg.as_str() {
             "--data" => {
                 job.data = PathBuf::from(value()?);
@@ -97,7 +107,7 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
             "--object-threshold" => {
                 job.object_threshold = value()?.parse().context("--object-threshold")?
             }
-            "--opt3" => opt3 = true,
+            "--opt-level" => opt_level = Some(value()?),
             "--no-build" => build = false,
             "-h" | "--help" => {
                 println!("{USAGE}");
@@ -107,13 +117,16 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
         }
     }
     if !matches!(job.mode.as_str(), "buffered" | "streamed") {
-        bail!("--mode: expected buffered or streamed, found {:?}", job.mode);
+        bail!(
+            "--mode: expected buffered or streamed, found {:?}",
+            job.mode
+        );
     }
     if !data_given {
         super::ensure_batch(&super::default_large(), &job.data)?;
     }
     let site = if build {
-        build_site(opt3)?
+        build_site(opt_level.as_deref())?
     } else {
         site_dir()
     };
@@ -129,7 +142,7 @@ fn site_dir() -> PathBuf {
 }
 
 /// Build the crate for wasm32, run bindgen and lay out the page; returns the site folder.
-pub fn build_site(opt3: bool) -> anyhow::Result<PathBuf> {
+pub fn build_site(opt_level: Option<&str>) -> anyhow::Result<PathBuf> {
     let root = crate::root();
     crate::test::ensure_wasm_target()?;
     let cargo = std::env::var_os("CARGO").unwrap_or_else(|| "cargo".into());
@@ -143,8 +156,12 @@ pub fn build_site(opt3: bool) -> anyhow::Result<PathBuf> {
         "--profile",
         PROFILE,
     ]);
-    if opt3 {
-        cmd.args(["--config", &format!("profile.{PROFILE}.opt-level=3")]);
+    if let Some(level) = opt_level {
+        let value = match level {
+            "s" | "z" => format!("\"{level}\""),
+            n => n.to_string(),
+        };
+        cmd.args(["--config", &format!("profile.{PROFILE}.opt-level={value}")]);
     }
     let status = cmd.status().context("running cargo build for bench-wasm")?;
     if !status.success() {
@@ -168,12 +185,36 @@ pub fn build_site(opt3: bool) -> anyhow::Result<PathBuf> {
         .with_context(|| format!("copying crates/bench-wasm/www/{name}"))?;
     }
     eprintln!(
-        "bench-wasm: built {} ({} bytes{})",
+        "bench-wasm: built {} ({} bytes, opt-level {})",
         site.display(),
         bytes.len(),
-        if opt3 { ", opt-level 3" } else { ", page profile" }
+        opt_level.map_or_else(
+            || format!("{} (page profile)", page_opt_level()),
+            str::to_string
+        )
     );
     Ok(site)
+}
+
+/// The `opt-level` of the page's `wasm-release` profile in the root Cargo.toml.
+pub fn page_opt_level() -> String {
+    let text = std::fs::read_to_string(crate::root().join("Cargo.toml")).unwrap_or_default();
+    let mut in_profile = false;
+    for line in text.lines() {
+        let line = line.trim();
+        if line.starts_with('[') {
+            in_profile = line == format!("[profile.{PROFILE}]");
+        } else if in_profile {
+            if let Some(v) = line.strip_prefix("opt-level") {
+                return v
+                    .trim_start_matches([' ', '='])
+                    .trim()
+                    .trim_matches('"')
+                    .to_string();
+            }
+        }
+    }
+    "?".into()
 }
 
 /// URL path of a file under `target/`.
@@ -226,8 +267,8 @@ async fn one(
     target: &Path,
     job: &Job,
 ) -> anyhow::Result<Value> {
-    let data = std::fs::canonicalize(&job.data)
-        .with_context(|| format!("{}", job.data.display()))?;
+    let data =
+        std::fs::canonicalize(&job.data).with_context(|| format!("{}", job.data.display()))?;
     let file = |name: &str| -> anyhow::Result<Option<String>> {
         let p = data.join(name);
         if !p.is_file() {
@@ -249,7 +290,9 @@ async fn one(
         "thresholds": job.thresholds,
         "objectThreshold": job.object_threshold,
         "repeat": job.repeat,
+        "rounds": job.rounds,
         "curve": job.curve,
+        "curveRepeat": job.curve_repeat,
     });
     eprintln!(
         "bench-wasm: {} ({} mode) in headless Chromium",
