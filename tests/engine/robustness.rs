@@ -96,7 +96,11 @@ fn damaged_inputs_give_errors_not_panics() {
                 Objectness::parse(&bytes, name).is_ok(),
                 Profile::from_json(&bytes, name, &tax).is_ok(),
                 npz::members(&bytes)
-                    .map(|ms| ms.iter().filter(|m| npz::extract(&bytes, m).is_ok()).count())
+                    .map(|ms| {
+                        ms.iter()
+                            .filter(|m| npz::extract(&bytes, m).is_ok())
+                            .count()
+                    })
                     .is_ok(),
             ];
             outcomes[ok.iter().any(|&x| x) as usize] += 1;

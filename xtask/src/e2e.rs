@@ -6,10 +6,13 @@
 //! chromedriver and one headless Chromium session, and runs every test in order
 //! against both the http URL and `file://…/dist/index.html`. Screenshots go to
 //! `target/e2e/`, including one per failed test (`target/e2e/failed-<test>.png`);
-//! the measured figures (load time, one threshold change) to `target/e2e/figures.txt`.
+//! the measured figures (load time, one threshold change, a 300 MB batch's read time, frame
+//! gaps and memory) to `target/e2e/figures.txt`. Generated batches are kept (and reused) under
+//! `target/e2e/batch-*`.
 //!
 //! Add tests in a module under `e2e/` and list them in [`all_tests`].
 
+mod big;
 mod harness;
 mod page;
 mod privacy;
@@ -29,7 +32,9 @@ const USAGE: &str = "usage: cargo xtask e2e [--no-build] [--filter TEXT]
   --no-build     test dist/ as it is
   --filter TEXT  run only the tests whose name contains TEXT
 
-env: HEDGEROW_CHROMIUM, HEDGEROW_CHROMEDRIVER (default /usr/bin/chromium, /usr/bin/chromedriver)";
+env: HEDGEROW_CHROMIUM, HEDGEROW_CHROMEDRIVER (default /usr/bin/chromium, /usr/bin/chromedriver)
+     HEDGEROW_E2E_HUGE=1   also run the >2 GiB logits test (by hand: generates ~2.2 GB under
+                           target/e2e/, minutes); HEDGEROW_E2E_HUGE_ROWS=N changes its rows";
 
 /// What every test can use.
 pub struct Ctx {
@@ -86,6 +91,7 @@ impl Test {
 fn all_tests() -> Vec<Test> {
     let mut tests = page::tests();
     tests.extend(privacy::tests());
+    tests.extend(big::tests());
     tests
 }
 

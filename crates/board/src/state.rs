@@ -5,13 +5,18 @@
 //! objectness, profile) and is checked; whenever the slots form a whole batch it becomes the
 //! *active* batch. A file that fails leaves its error beside its slot and the active batch, its
 //! thresholds and everything tuned so far untouched.
+//!
+//! An `.npz` bundle counts as a logits file: its `logits` member streams like a `.npy`
+//! ([`Bundle`] and [`LogitsFeed`] are the steps the shell takes with `Blob.slice`), and its
+//! `labels` and `objectness` members fill their slots unless those files were given alongside.
 
 use std::collections::BTreeMap;
 use std::rc::Rc;
 
 use hedgerow_core::{
-    npy, Batch, CurveIndex, CurvePoint, DepthDrag, Errors, Ingested, Labels, Metrics, Objectness,
-    Policy, Profile, Rule, Settings, Taxonomy, Temperatures,
+    npy, npz, Batch, CurveIndex, CurvePoint, DepthDrag, Error, ErrorKind, Errors, Ingested, Labels,
+    Location, LogitsReader, Metrics, Objectness, Policy, Profile, Rule, Settings, Taxonomy,
+    Temperatures,
 };
 use serde::{Deserialize, Serialize};
 
@@ -50,10 +55,19 @@ impl Slot {
     }
 }
 
+/// Whether a file's first bytes are a zip archive's: an `.npz` bundle (`np.savez` and
+/// `np.savez_compressed` write a local file header first). A bundle is a logits file.
+pub fn is_bundle(head: &[u8]) -> bool {
+    head.starts_with(b"PK\x03\x04")
+}
+
 /// Decide what a file is from its name and first bytes (at least the .npy header or the first
-/// line of a text file).
+/// line of a text file). An `.npz` bundle is [`Slot::Logits`] (see [`is_bundle`]).
 pub fn recognise(name: &str, head: &[u8]) -> Result<Slot, String> {
     let lower = name.to_ascii_lowercase();
+    if is_bundle(head) {
+        return Ok(Slot::Logits);
+    }
     if head.starts_with(b"\x93NUMPY") {
         let header = match npy::parse_header(head) {
             Ok(Some(h)) => h,
@@ -73,8 +87,12 @@ pub fn recognise(name: &str, head: &[u8]) -> Result<Slot, String> {
         };
     }
     if lower.ends_with(".npz") {
-        return Err(format!(
-            "{name}: .npz bundles are not read yet; save each array with np.save"
+        let first: String = head.iter().take(4).map(|b| format!("\\x{b:02x}")).collect();
+        return Err(engine_error(
+            name,
+            bad_zip(&format!(
+                "the first bytes {first} (a zip archive starts with PK\\x03\\x04)"
+            )),
         ));
     }
     let text = String::from_utf8_lossy(head);
@@ -102,6 +120,194 @@ pub fn recognise(name: &str, head: &[u8]) -> Result<Slot, String> {
             "{name}: not recognised: expected a .npy array, a taxonomy (CSV with id,parent columns or a JSON array), labels (CSV with a label column) or a profile (JSON object); the first line is `{}`",
             text.lines().next().unwrap_or("").chars().take(80).collect::<String>()
         ))
+    }
+}
+
+/// An error in the engine's words (`file: what was expected, what was found`), as the page
+/// shows it.
+fn engine_error(file: &str, kind: ErrorKind) -> String {
+    Error::new(file, Location::default(), kind).to_string()
+}
+
+/// A damaged or foreign zip archive, in the words of the engine's `npz` reader.
+fn bad_zip(found: &str) -> ErrorKind {
+    ErrorKind::Invalid {
+        what: "zip bundle".into(),
+        expected: "an archive as np.savez writes it".into(),
+        found: found.into(),
+    }
+}
+
+/// An `.npz` bundle as the page reads it, in the steps the shell takes with `Blob.slice` (it
+/// never reads the whole file): the bytes [`Bundle::tail`] of the file, then the directory at
+/// [`Bundle::directory`], then [`Bundle::open`]; for each member wanted, the
+/// `npz::LOCAL_HEADER_BYTES` at its `local_header`, whose [`Bundle::data_range`] is the
+/// member's compressed data. The `logits` member streams through a [`LogitsFeed`]; `labels`
+/// and `objectness` (small) are inflated whole ([`Bundle::inflate`]). Every error is text in
+/// the engine's words, naming the bundle (or `bundle.npz:member`).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Bundle {
+    pub name: String,
+    /// The whole file's length.
+    pub len: u64,
+    pub members: Vec<npz::Member>,
+}
+
+impl Bundle {
+    /// The byte range to read first: the end of the file, which holds the directory's end
+    /// records.
+    pub fn tail(len: u64) -> (u64, u64) {
+        (len.saturating_sub(npz::TAIL_BYTES), len)
+    }
+
+    /// Where the directory lies (`start..end`), found in the tail's bytes.
+    pub fn directory(name: &str, tail: &[u8], len: u64) -> Result<(u64, u64), String> {
+        let (offset, size) = npz::directory_range(tail, len).map_err(|k| engine_error(name, k))?;
+        match offset.checked_add(size) {
+            Some(end) if end <= len => Ok((offset, end)),
+            _ => Err(engine_error(
+                name,
+                bad_zip(&format!(
+                    "a directory of {size} bytes at byte {offset}, past the end of the {len}-byte file"
+                )),
+            )),
+        }
+    }
+
+    /// Read the directory. A bundle without a `logits` array, or whose `logits` are compressed
+    /// in a way `np.savez` does not write, is refused here, before anything is read.
+    pub fn open(name: &str, len: u64, directory: &[u8]) -> Result<Bundle, String> {
+        let members = npz::parse_directory(directory).map_err(|k| engine_error(name, k))?;
+        let bundle = Bundle {
+            name: name.to_string(),
+            len,
+            members,
+        };
+        let Some(logits) = bundle.member("logits") else {
+            return Err(format!(
+                "{name}: expected a `logits` array in the bundle, found {}",
+                bundle.keys_text()
+            ));
+        };
+        npz::Inflow::new(logits).map_err(|k| engine_error(&bundle.member_name("logits"), k))?;
+        Ok(bundle)
+    }
+
+    /// The member `np.load` would give as `key`.
+    pub fn member(&self, key: &str) -> Option<&npz::Member> {
+        self.members.iter().find(|m| m.key() == key)
+    }
+
+    /// The arrays' names, in the archive's order.
+    pub fn keys(&self) -> Vec<String> {
+        self.members.iter().map(|m| m.key().to_string()).collect()
+    }
+
+    fn keys_text(&self) -> String {
+        if self.members.is_empty() {
+            return "no arrays".into();
+        }
+        quoted(&self.keys())
+    }
+
+    /// How the page names a member: `bundle.npz:labels`.
+    pub fn member_name(&self, key: &str) -> String {
+        format!("{}:{key}", self.name)
+    }
+
+    /// Where a member's compressed data lies (`start..end`), from the first
+    /// `npz::LOCAL_HEADER_BYTES` of its local header.
+    pub fn data_range(&self, member: &npz::Member, local: &[u8]) -> Result<(u64, u64), String> {
+        let start = npz::data_offset(member, local).map_err(|k| engine_error(&self.name, k))?;
+        match start.checked_add(member.compressed) {
+            Some(end) if end <= self.len => Ok((start, end)),
+            _ => Err(engine_error(
+                &self.name,
+                bad_zip(&format!(
+                    "member `{}` runs past the end of the file",
+                    member.name
+                )),
+            )),
+        }
+    }
+
+    /// A small member inflated whole from its compressed data (`data_range`'s bytes).
+    pub fn inflate(&self, member: &npz::Member, data: &[u8]) -> Result<Vec<u8>, String> {
+        let name = self.member_name(member.key());
+        let fail = |k| engine_error(&name, k);
+        let mut flow = npz::Inflow::new(member).map_err(fail)?;
+        let mut out = Vec::new();
+        flow.feed(
+            data,
+            &mut |chunk: &[u8]| -> Result<(), ErrorKind> {
+                out.extend_from_slice(chunk);
+                Ok(())
+            },
+            |k| k,
+        )
+        .map_err(fail)?;
+        flow.finish().map_err(fail)?;
+        Ok(out)
+    }
+}
+
+/// What the shell pushes a logits file's bytes through, chunk by chunk: a `.npy` straight into
+/// the engine's `LogitsReader`, a bundle's `logits` member through its inflater first. The
+/// decompressed array is never held: each chunk becomes greedy paths as it arrives.
+pub struct LogitsFeed {
+    reader: LogitsReader,
+    /// The member's name (`bundle.npz:logits`, for errors) and its inflater.
+    inflow: Option<(String, npz::Inflow)>,
+}
+
+impl LogitsFeed {
+    /// A plain `.npy` file.
+    pub fn npy(name: &str, tax: &Taxonomy, temps: &Temperatures) -> Self {
+        LogitsFeed {
+            reader: LogitsReader::new(name, tax, temps),
+            inflow: None,
+        }
+    }
+
+    /// A bundle's member (its compressed data is what `feed` takes).
+    pub fn member(
+        bundle: &str,
+        member: &npz::Member,
+        tax: &Taxonomy,
+        temps: &Temperatures,
+    ) -> Result<Self, Errors> {
+        let name = format!("{bundle}:{}", member.key());
+        let inflow = npz::Inflow::new(member)
+            .map_err(|k| Errors::from(Error::new(&name, Location::default(), k)))?;
+        Ok(LogitsFeed {
+            reader: LogitsReader::new(&name, tax, temps),
+            inflow: Some((name, inflow)),
+        })
+    }
+
+    /// Feed the next bytes (of the file, or of the member's compressed data).
+    pub fn feed(&mut self, tax: &Taxonomy, chunk: &[u8]) -> Result<(), Errors> {
+        let reader = &mut self.reader;
+        match &mut self.inflow {
+            None => reader.feed(tax, chunk),
+            Some((name, inflow)) => {
+                inflow.feed(chunk, &mut |out: &[u8]| reader.feed(tax, out), |k| {
+                    Errors::from(Error::new(name.as_str(), Location::default(), k))
+                })
+            }
+        }
+    }
+
+    /// Check that everything arrived and return the paths.
+    pub fn finish(self, tax: &Taxonomy) -> Result<Ingested, Errors> {
+        // The reader first: a cut member is best told by the row where the array stops.
+        let ingested = self.reader.finish(tax)?;
+        if let Some((name, inflow)) = &self.inflow {
+            inflow
+                .finish()
+                .map_err(|k| Errors::from(Error::new(name.as_str(), Location::default(), k)))?;
+        }
+        Ok(ingested)
     }
 }
 
@@ -156,6 +362,21 @@ pub enum Action {
         name: String,
         total: u64,
     },
+    /// An `.npz` bundle was chosen as the logits file: its `logits` member streams like a
+    /// `.npy` (as after `LogitsChosen`), its `labels` and `objectness` members (read whole by
+    /// the shell, `None` when the same selection gave those files separately, or the member
+    /// could not be read) go into their slots as `bundle.npz:labels` and
+    /// `bundle.npz:objectness`. A bundle without objectness leaves no objectness staged (as the
+    /// command line reads it), unless that file was given alongside.
+    BundleChosen {
+        name: String,
+        /// Compressed bytes of the `logits` member: what the shell reads and the progress counts.
+        total: u64,
+        /// Every array in the bundle (`np.load`'s keys).
+        keys: Vec<String>,
+        labels: Option<Rc<Vec<u8>>>,
+        objectness: Option<Rc<Vec<u8>>>,
+    },
     LogitsProgress {
         done: u64,
     },
@@ -189,6 +410,8 @@ pub struct Board {
     pub labels: Option<(String, Rc<Vec<u8>>)>,
     pub objectness: Option<(String, Rc<Objectness>)>,
     pub logits: Option<String>,
+    /// The arrays of the bundle in the logits slot, when it holds one.
+    pub bundle: Option<Vec<String>>,
     pub ingested: Option<(IngestKey, Rc<Ingested>)>,
     pub progress: Option<Progress>,
     pub errors: BTreeMap<Slot, Vec<String>>,
@@ -209,15 +432,34 @@ pub struct Board {
     drag: Rc<std::cell::RefCell<Option<DepthDrag>>>,
     /// Bumped whenever a new batch becomes active (for caches keyed on it).
     pub generation: usize,
-    /// The key whose read failed, so it is not retried until something changes.
-    logits_failed_for: Option<IngestKey>,
+    /// The key whose read failed or was cancelled, so it is not retried until something
+    /// changes.
+    no_read_for: Option<IngestKey>,
     pending_total: u64,
-    /// The logits file and paths a `LogitsChosen` replaced, put back by `LogitsCancelled`.
+    /// What a `LogitsChosen` or `BundleChosen` replaced, put back by `LogitsCancelled`.
     before_choice: Option<BeforeChoice>,
 }
 
-/// The staged logits file name and its paths, as they were before a new file was chosen.
-type BeforeChoice = (Option<String>, Option<(IngestKey, Rc<Ingested>)>);
+/// The staged logits file, its paths and (when a bundle's members replaced them) the labels and
+/// objectness slots, as they were before a new logits file was chosen.
+#[derive(Debug, Clone)]
+struct BeforeChoice {
+    logits: Option<String>,
+    bundle: Option<Vec<String>>,
+    ingested: Option<(IngestKey, Rc<Ingested>)>,
+    members: Option<MemberSlots>,
+}
+
+/// The labels and objectness slots with their notes and errors.
+#[derive(Debug, Clone)]
+struct MemberSlots {
+    labels: Option<(String, Rc<Vec<u8>>)>,
+    objectness: Option<(String, Rc<Objectness>)>,
+    notes: Vec<(Slot, Option<String>)>,
+    errors: Vec<(Slot, Option<Vec<String>>)>,
+}
+
+const MEMBER_SLOTS: [Slot; 2] = [Slot::Labels, Slot::Objectness];
 
 /// The chart's curve keeps a point once precision or specificity moved by this much: finer
 /// than a pixel at any sensible chart size, and a million-row curve stays a few thousand points.
@@ -288,7 +530,7 @@ impl Board {
             Some((k, _)) if *k == key => None,
             // A read that failed is not retried until the file or the key changes (dismissing
             // its error does not ask for it again).
-            _ if self.logits_failed_for.as_ref() == Some(&key) => None,
+            _ if self.no_read_for.as_ref() == Some(&key) => None,
             _ => Some(key),
         }
     }
@@ -323,15 +565,52 @@ impl Board {
                     .insert(slot.unwrap_or(Slot::Other), vec![message]);
             }
             Action::LogitsChosen { name, total } => {
-                self.before_choice = Some((self.logits.take(), self.ingested.take()));
-                self.logits = Some(name.clone());
-                self.errors.remove(&Slot::Logits);
-                self.logits_failed_for = None;
+                self.choose(&name, total, None);
                 self.notes
                     .insert(Slot::Logits, format!("{name}: waiting for a taxonomy"));
-                self.ingested = None;
-                self.progress = None;
-                self.pending_total = total;
+            }
+            Action::BundleChosen {
+                name,
+                total,
+                keys,
+                labels,
+                objectness,
+            } => {
+                let members = MemberSlots {
+                    labels: self.labels.clone(),
+                    objectness: self.objectness.clone(),
+                    notes: MEMBER_SLOTS
+                        .map(|s| (s, self.notes.get(&s).cloned()))
+                        .to_vec(),
+                    errors: MEMBER_SLOTS
+                        .map(|s| (s, self.errors.get(&s).cloned()))
+                        .to_vec(),
+                };
+                self.choose(&name, total, Some(members));
+                self.notes.insert(
+                    Slot::Logits,
+                    format!(
+                        "{name}: a bundle of {}; waiting for a taxonomy",
+                        quoted(&keys)
+                    ),
+                );
+                let holds = |key: &str| keys.iter().any(|k| k == key);
+                if let Some(bytes) = labels {
+                    self.fill(Slot::Labels, format!("{name}:labels"), bytes);
+                }
+                match objectness {
+                    Some(bytes) => self.fill(Slot::Objectness, format!("{name}:objectness"), bytes),
+                    None if !holds("objectness") => {
+                        self.objectness = None;
+                        self.errors.remove(&Slot::Objectness);
+                        self.notes.insert(
+                            Slot::Objectness,
+                            format!("none: {name} holds no objectness"),
+                        );
+                    }
+                    None => {}
+                }
+                self.bundle = Some(keys);
             }
             Action::LogitsProgress { done } => {
                 if let Some(name) = &self.logits {
@@ -347,9 +626,26 @@ impl Board {
                 // Back to the file and paths from before the choice (a new file's read was
                 // cancelled) and to the temperatures those paths were read with (a re-read for
                 // new temperatures was cancelled), so that nothing asks for the read again.
-                if let Some((logits, ingested)) = self.before_choice.take() {
-                    self.logits = logits;
-                    self.ingested = ingested;
+                if let Some(before) = self.before_choice.take() {
+                    self.logits = before.logits;
+                    self.bundle = before.bundle;
+                    self.ingested = before.ingested;
+                    if let Some(m) = before.members {
+                        self.labels = m.labels;
+                        self.objectness = m.objectness;
+                        for (slot, note) in m.notes {
+                            match note {
+                                Some(n) => self.notes.insert(slot, n),
+                                None => self.notes.remove(&slot),
+                            };
+                        }
+                        for (slot, errors) in m.errors {
+                            match errors {
+                                Some(e) => self.errors.insert(slot, e),
+                                None => self.errors.remove(&slot),
+                            };
+                        }
+                    }
                 }
                 match &self.ingested {
                     Some((key, _)) => self.temperatures = Temperatures(key.temperatures.clone()),
@@ -364,6 +660,11 @@ impl Board {
                     Slot::Logits,
                     "reading cancelled; the batch in use is kept".into(),
                 );
+                // A cancelled read does not start again by itself (e.g. the old file under a
+                // newly staged taxonomy): choosing a file or new temperatures start one.
+                if let Some(key) = self.wanted_ingest() {
+                    self.no_read_for = Some(key);
+                }
             }
             Action::LogitsDone { key, result } => {
                 self.progress = None;
@@ -371,10 +672,15 @@ impl Board {
                 match result {
                     Ok(ingested) => {
                         let h = &ingested.header;
+                        let bundle = self
+                            .bundle
+                            .as_ref()
+                            .map(|keys| format!(" (a bundle of {})", quoted(keys)))
+                            .unwrap_or_default();
                         self.notes.insert(
                             Slot::Logits,
                             format!(
-                                "{}: {} rows × {} nodes, {}",
+                                "{}: {} rows × {} nodes, {}{bundle}",
                                 self.logits.clone().unwrap_or_default(),
                                 h.shape.first().copied().unwrap_or(0),
                                 h.shape.get(1).copied().unwrap_or(0),
@@ -386,7 +692,7 @@ impl Board {
                         self.assemble();
                     }
                     Err(e) => {
-                        self.logits_failed_for = Some(key);
+                        self.no_read_for = Some(key);
                         self.errors.insert(Slot::Logits, messages(&e));
                     }
                 }
@@ -454,14 +760,33 @@ impl Board {
         }
     }
 
+    /// A new logits file (or bundle) is staged: its paths are to be read.
+    fn choose(&mut self, name: &str, total: u64, members: Option<MemberSlots>) {
+        self.before_choice = Some(BeforeChoice {
+            logits: self.logits.take(),
+            bundle: self.bundle.take(),
+            ingested: self.ingested.take(),
+            members,
+        });
+        self.logits = Some(name.to_string());
+        self.errors.remove(&Slot::Logits);
+        self.no_read_for = None;
+        self.progress = None;
+        self.pending_total = total;
+    }
+
     fn file(&mut self, name: String, bytes: Rc<Vec<u8>>) {
-        let slot = match recognise(&name, &bytes[..bytes.len().min(1 << 16)]) {
-            Ok(s) => s,
+        match recognise(&name, &bytes[..bytes.len().min(1 << 16)]) {
+            Ok(slot) => self.fill(slot, name, bytes),
             Err(message) => {
                 self.errors.insert(Slot::Other, vec![message]);
-                return;
             }
-        };
+        }
+    }
+
+    /// Put a whole file into its slot (recognised from its content, or a bundle's member by
+    /// its key) and check it.
+    fn fill(&mut self, slot: Slot, name: String, bytes: Rc<Vec<u8>>) {
         self.errors.remove(&slot);
         match slot {
             Slot::Taxonomy => match Taxonomy::parse(&bytes, &name) {
@@ -809,6 +1134,15 @@ fn clamp01(v: f64) -> f64 {
 
 fn messages(e: &Errors) -> Vec<String> {
     e.iter().map(|e| e.to_string()).collect()
+}
+
+/// Names as the page quotes them: `` `logits`, `labels` ``.
+fn quoted(names: &[String]) -> String {
+    names
+        .iter()
+        .map(|n| format!("`{n}`"))
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 fn join(values: &[f64]) -> String {

@@ -22,12 +22,21 @@ pub fn js_error(e: &JsValue) -> String {
 
 /// The bytes `start..end` of a blob (a chosen file), read without reading the rest.
 pub async fn read_range(blob: &Blob, start: u64, end: u64) -> Result<Vec<u8>, String> {
+    finish_read(start_read(blob, start, end)?).await
+}
+
+/// Start reading the bytes `start..end` of a blob: the browser reads them while the page goes
+/// on; [`finish_read`] waits for them.
+pub fn start_read(blob: &Blob, start: u64, end: u64) -> Result<JsFuture, String> {
     let part = blob
         .slice_with_f64_and_f64(start as f64, end as f64)
         .map_err(|e| js_error(&e))?;
-    let buffer = JsFuture::from(part.array_buffer())
-        .await
-        .map_err(|e| js_error(&e))?;
+    Ok(JsFuture::from(part.array_buffer()))
+}
+
+/// The bytes of a read [`start_read`] began.
+pub async fn finish_read(read: JsFuture) -> Result<Vec<u8>, String> {
+    let buffer = read.await.map_err(|e| js_error(&e))?;
     Ok(Uint8Array::new(&buffer).to_vec())
 }
 
@@ -115,4 +124,97 @@ pub fn pixel_ratio() -> f64 {
     web_sys::window()
         .map_or(1.0, |w| w.device_pixel_ratio())
         .max(1.0)
+}
+
+/// Put `hedgerowWasmMemoryBytes()` on the global object: the size of this program's wasm
+/// memory in bytes (which `performance.memory` does not count), for measuring the page from
+/// outside (the end-to-end tests). It only reads a size.
+pub fn expose_memory_probe() {
+    let probe = Closure::<dyn Fn() -> f64>::new(wasm_memory_bytes);
+    let _ = js_sys::Reflect::set(
+        &js_sys::global(),
+        &JsValue::from_str("hedgerowWasmMemoryBytes"),
+        &probe.into_js_value(),
+    );
+}
+
+/// The size of this program's wasm memory in bytes (it only grows).
+fn wasm_memory_bytes() -> f64 {
+    let memory = wasm_bindgen::memory();
+    js_sys::Reflect::get(&memory, &JsValue::from_str("buffer"))
+        .and_then(|b| js_sys::Reflect::get(&b, &JsValue::from_str("byteLength")))
+        .ok()
+        .and_then(|v| v.as_f64())
+        .unwrap_or(0.0)
+}
+
+/// When the program traps (above all when its memory cannot grow: wasm32 memory ends at
+/// 4 GiB, which a batch of some ten million rows needs more than), the page cannot go on; say
+/// so in a banner (`data-testid="fatal"`) instead of freezing silently. Installed at startup.
+pub fn show_fatal_errors() {
+    let Some(window) = web_sys::window() else {
+        return;
+    };
+    let on_error = Closure::<dyn Fn(web_sys::ErrorEvent)>::new(|e: web_sys::ErrorEvent| {
+        if e.error()
+            .is_instance_of::<js_sys::WebAssembly::RuntimeError>()
+        {
+            fatal(&e.message());
+        }
+    });
+    let on_rejection = Closure::<dyn Fn(web_sys::PromiseRejectionEvent)>::new(
+        |e: web_sys::PromiseRejectionEvent| {
+            let reason = e.reason();
+            if reason.is_instance_of::<js_sys::WebAssembly::RuntimeError>() {
+                fatal(&js_error(&reason));
+            }
+        },
+    );
+    let _ = window.add_event_listener_with_callback("error", on_error.as_ref().unchecked_ref());
+    let _ = window.add_event_listener_with_callback(
+        "unhandledrejection",
+        on_rejection.as_ref().unchecked_ref(),
+    );
+    // They live as long as the page.
+    on_error.forget();
+    on_rejection.forget();
+}
+
+fn fatal(message: &str) {
+    let Some(document) = web_sys::window().and_then(|w| w.document()) else {
+        return;
+    };
+    let Some(body) = document.body() else {
+        return;
+    };
+    let gib = wasm_memory_bytes() / f64::from(1u32 << 30);
+    let limit = if gib > 3.0 {
+        format!(
+            " Its memory had reached {gib:.2} GiB of the 4 GiB WebAssembly allows: this batch has \
+             too many rows for the page (the command line has no such limit)."
+        )
+    } else {
+        String::new()
+    };
+    let text = format!("The page stopped: {message}.{limit} Reload the page to go on.");
+    let banner = match document.get_element_by_id("fatal") {
+        Some(b) => b,
+        None => {
+            let Ok(b) = document.create_element("div") else {
+                return;
+            };
+            b.set_id("fatal");
+            let _ = b.set_attribute("class", "error-area error");
+            let _ = b.set_attribute("role", "alert");
+            let _ = b.set_attribute("data-testid", "fatal");
+            let _ = b.set_attribute(
+                "style",
+                "position: fixed; top: 0.75rem; left: 50%; transform: translateX(-50%); \
+                 z-index: 1000; max-width: 48rem; box-shadow: 0 4px 16px rgba(0, 0, 0, 0.2);",
+            );
+            let _ = body.append_child(&b);
+            b
+        }
+    };
+    banner.set_text_content(Some(&text));
 }

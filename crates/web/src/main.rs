@@ -19,6 +19,8 @@ mod store;
 use components::app::App;
 
 fn main() {
+    browser::show_fatal_errors();
+    browser::expose_memory_probe();
     // Mount into `<main id="app">` of www/index.html; fall back to <body>.
     let root = web_sys::window()
         .and_then(|w| w.document())

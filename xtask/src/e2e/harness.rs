@@ -168,6 +168,8 @@ impl Browser {
             "--no-default-browser-check".into(),
             "--disable-quic".into(),
             "--hide-scrollbars".into(),
+            // performance.memory in exact bytes (not bucketed), for the memory figures.
+            "--enable-precise-memory-info".into(),
             format!("--window-size={},{}", cfg.window.0, cfg.window.1),
             format!("--user-data-dir={}", profile_dir.display()),
         ];
@@ -336,6 +338,22 @@ impl Browser {
             .send_keys(&abs.to_string_lossy())
             .await
             .with_context(|| format!("uploading {} into {id}", abs.display()))
+    }
+
+    /// Choose several local files at once in an `<input type="file" multiple>` (chromedriver
+    /// takes the paths separated by newlines), as one selection.
+    pub async fn upload_files(&self, id: &str, paths: &[&Path]) -> anyhow::Result<()> {
+        let mut abs = Vec::new();
+        for p in paths {
+            let a = std::fs::canonicalize(p).with_context(|| format!("{}", p.display()))?;
+            abs.push(a.to_string_lossy().into_owned());
+        }
+        let keys = abs.join("\n");
+        self.find(id)
+            .await?
+            .send_keys(&keys)
+            .await
+            .with_context(|| format!("uploading {abs:?} into {id}"))
     }
 
     /// Run a script in the page (`arguments[i]` are `args`); a returned

@@ -56,6 +56,18 @@ pub fn tests() -> Vec<Test> {
             |b, c| Box::pin(cancel(b, c)),
         ),
         Test::new(
+            "http: an np.savez_compressed bundle loads with its taxonomy and equals the CLI",
+            |b, c| Box::pin(bundle(b, c)),
+        ),
+        Test::new(
+            "http: a bundle without logits or a cut one shows the error beside the logits and keeps the batch",
+            |b, c| Box::pin(bundle_errors(b, c)),
+        ),
+        Test::new(
+            "http: a wasm trap (out of memory) shows why the page stopped",
+            |b, c| Box::pin(trap(b, c)),
+        ),
+        Test::new(
             "file: the demo loads and equals the CLI at the defaults",
             |b, c| Box::pin(demo_defaults(b, c, c.file_url.as_str(), "file")),
         ),
@@ -64,7 +76,7 @@ pub fn tests() -> Vec<Test> {
 
 /// The four headline numbers as the page shows them (text content).
 #[derive(Debug, Clone, PartialEq)]
-struct Headline {
+pub(super) struct Headline {
     predictions: String,
     precision: String,
     specificity: String,
@@ -73,7 +85,7 @@ struct Headline {
 
 impl Headline {
     /// The same numbers from `hedgerow evaluate --json`, formatted as the page formats them.
-    fn from_json(m: &Value) -> anyhow::Result<Self> {
+    pub(super) fn from_json(m: &Value) -> anyhow::Result<Self> {
         let ratio = |k: &str| match &m[k] {
             Value::Null => Ok("n/a".to_string()),
             v => v
@@ -118,6 +130,33 @@ fn cli(c: &Ctx, command: &str, args: &[&str]) -> anyhow::Result<String> {
     Ok(String::from_utf8(out.stdout)?)
 }
 
+/// `hedgerow evaluate --json` on these files (flag and path: `--taxonomy`, `--logits`, …) with
+/// these settings flags: its headline, as the page formats it.
+pub(super) fn evaluate_files(
+    c: &Ctx,
+    files: &[(&str, &Path)],
+    args: &[&str],
+) -> anyhow::Result<Headline> {
+    let mut cmd = Command::new(&c.cli);
+    cmd.arg("evaluate");
+    for (flag, path) in files {
+        cmd.arg(flag).arg(path);
+    }
+    let out = cmd
+        .args(args)
+        .arg("--json")
+        .output()
+        .with_context(|| format!("running {}", c.cli.display()))?;
+    ensure!(
+        out.status.success(),
+        "hedgerow evaluate {files:?} {args:?} failed ({}): {}",
+        out.status,
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let m: Value = serde_json::from_slice(&out.stdout).context("the CLI's JSON")?;
+    Headline::from_json(&m)
+}
+
 /// The CLI's headline for these settings flags.
 fn expected(c: &Ctx, args: &[&str]) -> anyhow::Result<Headline> {
     let mut all = args.to_vec();
@@ -127,7 +166,7 @@ fn expected(c: &Ctx, args: &[&str]) -> anyhow::Result<Headline> {
     Headline::from_json(&m)
 }
 
-async fn headline(b: &Browser) -> anyhow::Result<Headline> {
+pub(super) async fn headline(b: &Browser) -> anyhow::Result<Headline> {
     let v = b
         .eval(
             r#"
@@ -147,13 +186,27 @@ async fn headline(b: &Browser) -> anyhow::Result<Headline> {
 }
 
 /// Whether a logits read is in progress.
-async fn reading(b: &Browser) -> anyhow::Result<bool> {
+pub(super) async fn reading(b: &Browser) -> anyhow::Result<bool> {
     Ok(!b.find_all("read-progress").await?.is_empty())
 }
 
 /// Wait until the page shows `want` with no read in progress.
-async fn expect_headline(b: &Browser, want: &Headline, what: &str) -> anyhow::Result<()> {
-    let deadline = Instant::now() + b.timeout;
+pub(super) async fn expect_headline(
+    b: &Browser,
+    want: &Headline,
+    what: &str,
+) -> anyhow::Result<()> {
+    expect_headline_within(b, want, what, b.timeout).await
+}
+
+/// The same, waiting up to `timeout` (big files).
+pub(super) async fn expect_headline_within(
+    b: &Browser,
+    want: &Headline,
+    what: &str,
+    timeout: Duration,
+) -> anyhow::Result<()> {
+    let deadline = Instant::now() + timeout;
     loop {
         let got = headline(b).await?;
         if got == *want && !reading(b).await? {
@@ -168,7 +221,7 @@ async fn expect_headline(b: &Browser, want: &Headline, what: &str) -> anyhow::Re
 }
 
 /// The `value` of an input or select.
-async fn value(b: &Browser, id: &str) -> anyhow::Result<String> {
+pub(super) async fn value(b: &Browser, id: &str) -> anyhow::Result<String> {
     b.find(id).await?;
     let v = b
         .eval(
@@ -180,7 +233,7 @@ async fn value(b: &Browser, id: &str) -> anyhow::Result<String> {
 }
 
 /// Open the page with no stored settings (so it starts at the defaults).
-async fn open_fresh(b: &Browser, url: &str) -> anyhow::Result<()> {
+pub(super) async fn open_fresh(b: &Browser, url: &str) -> anyhow::Result<()> {
     b.open(url).await?;
     b.eval(
         "try { localStorage.clear(); return true; } catch (e) { return String(e); }",
@@ -191,14 +244,14 @@ async fn open_fresh(b: &Browser, url: &str) -> anyhow::Result<()> {
 }
 
 /// Open fresh and wait for the demo at the defaults.
-async fn fresh_demo(b: &Browser, c: &Ctx, url: &str) -> anyhow::Result<Headline> {
+pub(super) async fn fresh_demo(b: &Browser, c: &Ctx, url: &str) -> anyhow::Result<Headline> {
     open_fresh(b, url).await?;
     let want = expected(c, &[])?;
     expect_headline(b, &want, "the demo at the defaults").await?;
     Ok(want)
 }
 
-async fn screenshot(b: &Browser, c: &Ctx, name: &str) -> anyhow::Result<()> {
+pub(super) async fn screenshot(b: &Browser, c: &Ctx, name: &str) -> anyhow::Result<()> {
     // Let the charts' effects run before the shot.
     tokio::time::sleep(Duration::from_millis(250)).await;
     b.screenshot(&c.out_dir.join(name)).await
@@ -260,7 +313,7 @@ async fn demo_defaults(b: &Browser, c: &Ctx, url: &str, scheme: &str) -> anyhow:
 /// dispatch and the engine's re-evaluation run inside the event (yew's reducer is
 /// synchronous), then the render and the charts' redraw, all before a `setTimeout(0)` fires
 /// (yew renders on the microtask queue). Returns (engine ms, total ms).
-async fn timed_set(b: &Browser, id: &str, v: &str) -> anyhow::Result<(f64, f64)> {
+pub(super) async fn timed_set(b: &Browser, id: &str, v: &str) -> anyhow::Result<(f64, f64)> {
     b.find(id).await?;
     let js = r#"
         const [sel, value] = arguments;
@@ -800,4 +853,167 @@ async fn cancel(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     .await?;
     let _ = std::fs::remove_file(&big);
     Ok(())
+}
+
+/// The 7-node tree of `tests/engine/harness.rs`, which the numpy fixtures were written for.
+const TREE: &str = "id,parent,name\nb,a,B\na,,A\nc,a,C\nd,,D\ne,d,E\nf,b,F\ng,b,G\n";
+
+fn fixture(name: &str) -> PathBuf {
+    crate::root()
+        .join("tests")
+        .join("fixtures")
+        .join("numpy")
+        .join(name)
+}
+
+fn tree_file(c: &Ctx) -> anyhow::Result<PathBuf> {
+    let path = c.out_dir.join("tree.csv");
+    std::fs::write(&path, TREE)?;
+    Ok(path)
+}
+
+async fn bundle(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    let tree = tree_file(c)?;
+    let npz = fixture("bundle-compressed.npz");
+    // The command line takes labels and objectness from the bundle when not given.
+    let files = [("--taxonomy", tree.as_path()), ("--logits", npz.as_path())];
+    let want = evaluate_files(c, &files, &[])?;
+    fresh_demo(b, c, &c.http_url).await?;
+    // The taxonomy and the bundle as one selection, over the demo batch.
+    b.upload_files("file-input", &[&tree, &npz]).await?;
+    expect_headline(b, &want, "bundle-compressed.npz at the defaults").await?;
+    let error = b.text("error").await?;
+    ensure!(error.is_empty(), "error area: {error:?}");
+    let in_use = b.text("in-use").await?;
+    for part in [
+        "tree.csv",
+        "bundle-compressed.npz:labels",
+        "bundle-compressed.npz:objectness",
+    ] {
+        ensure!(
+            in_use.contains(part),
+            "batch in use: {in_use:?}, expected {part}"
+        );
+    }
+    let note = b.text("file-logits").await?;
+    ensure!(
+        note.contains(
+            "bundle-compressed.npz: 12 rows × 7 nodes, float64 (a bundle of `logits`, `labels`, `objectness`)"
+        ),
+        "the logits slot says {note:?}"
+    );
+    ensure!(
+        b.find_all("threshold-depth-4").await?.is_empty()
+            && !b.find_all("threshold-depth-3").await?.is_empty(),
+        "the tree is 3 deep: a control for depths 1 to 3 only"
+    );
+    b.set_value("threshold-depth-2", "0.8").await?;
+    b.set_value("threshold-object", "0.3").await?;
+    let want = evaluate_files(
+        c,
+        &files,
+        &["--thresholds", "0.5,0.8,0.5", "--object-threshold", "0.3"],
+    )?;
+    expect_headline(b, &want, "the bundle, depth 2 at 0.8, object at 0.3").await?;
+    screenshot(b, c, "bundle.png").await?;
+    b.eval("window.scrollTo(0, document.body.scrollHeight);", vec![])
+        .await?;
+    screenshot(b, c, "bundle-files.png").await
+}
+
+/// The bundle with one member renamed (same length, so every offset stays right).
+fn renamed(bytes: &[u8], from: &[u8], to: &[u8]) -> Vec<u8> {
+    let mut out = bytes.to_vec();
+    let mut i = 0;
+    while i + from.len() <= out.len() {
+        if &out[i..i + from.len()] == from {
+            out[i..i + to.len()].copy_from_slice(to);
+            i += from.len();
+        } else {
+            i += 1;
+        }
+    }
+    out
+}
+
+async fn bundle_errors(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    let want = tuned_then(b, c).await?;
+    let bytes = std::fs::read(fixture("bundle.npz"))?;
+    let cases = [
+        (
+            "scores.npz",
+            renamed(&bytes, b"logits.npy", b"scores.npy"),
+            "scores.npz: expected a `logits` array in the bundle, found `scores`, `labels`, `objectness`",
+        ),
+        (
+            "cut.npz",
+            bytes[..bytes.len() - 30].to_vec(),
+            "cut.npz: zip bundle: expected an archive as np.savez writes it, found `no end-of-directory record (not a zip file, or truncated)`",
+        ),
+    ];
+    for (name, data, message) in cases {
+        let path = c.out_dir.join(name);
+        std::fs::write(&path, data)?;
+        b.upload_file("file-input", &path).await?;
+        b.wait_text("file-logits-errors", message, |t| t.contains(message))
+            .await?;
+        let all = b.text("error").await?;
+        ensure!(all.contains(message), "error area: {all:?}");
+        ensure!(
+            headline(b).await? == want,
+            "the numbers changed after {name}"
+        );
+        ensure!(
+            value(b, "threshold-depth-2").await? == "0.77",
+            "tuning lost after {name}"
+        );
+        let in_use = b.text("in-use").await?;
+        ensure!(
+            in_use.contains("logits.npy") && !in_use.contains(".npz"),
+            "batch in use: {in_use:?}"
+        );
+        if name == "scores.npz" {
+            screenshot(b, c, "bundle-error.png").await?;
+        }
+        b.click("dismiss-errors").await?;
+        b.wait_text("error", "no error", str::is_empty).await?;
+    }
+    Ok(())
+}
+
+/// What the page does when its program traps (as when its memory cannot grow past 4 GiB: see
+/// the hand-run test in `big.rs`), shown with a synthetic trap event.
+async fn trap(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    fresh_demo(b, c, &c.http_url).await?;
+    ensure!(
+        b.find_all("fatal").await?.is_empty(),
+        "a banner before any trap"
+    );
+    // Not a trap: an ordinary script error does not stop the page.
+    b.eval(
+        r#"window.dispatchEvent(new ErrorEvent("error", { error: new TypeError("x"), message: "x" }));"#,
+        vec![],
+    )
+    .await?;
+    ensure!(
+        b.find_all("fatal").await?.is_empty(),
+        "a banner for a script error"
+    );
+    b.eval(
+        r#"window.dispatchEvent(new ErrorEvent("error", {
+            error: new WebAssembly.RuntimeError("unreachable"),
+            message: "Uncaught RuntimeError: unreachable",
+        }));"#,
+        vec![],
+    )
+    .await?;
+    let text = b.text("fatal").await?;
+    ensure!(
+        text.starts_with("The page stopped: Uncaught RuntimeError: unreachable.")
+            && text.ends_with("Reload the page to go on."),
+        "the banner says {text:?}"
+    );
+    screenshot(b, c, "trap.png").await?;
+    // The console error the synthetic event logged is this test's own.
+    b.clear_logs().await
 }

@@ -25,8 +25,8 @@ pub fn file_picker(props: &FilePickerProps) -> Html {
         }
     });
     html! {
-        <label class="file-picker button" title="Taxonomy (.csv/.json), logits (.npy), labels (.csv/.npy), objectness (.npy) or a profile (.json); several at once">
-            <input type="file" multiple=true data-testid="file-input" accept=".csv,.json,.npy,.txt,text/csv,application/json" {onchange} />
+        <label class="file-picker button" title="Taxonomy (.csv/.json), logits (.npy, or an .npz bundle with labels and objectness), labels (.csv/.npy), objectness (.npy) or a profile (.json); several at once">
+            <input type="file" multiple=true data-testid="file-input" accept=".csv,.json,.npy,.npz,.txt,text/csv,application/json" {onchange} />
             <span>{ "Open files…" }</span>
         </label>
     }

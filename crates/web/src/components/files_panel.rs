@@ -19,7 +19,9 @@ fn expects(slot: Slot) -> &'static str {
         Slot::Taxonomy => {
             "CSV with id,parent[,name] columns, or a JSON array of {id, parent, name}"
         }
-        Slot::Logits => ".npy (rows, nodes) of float16/32/64, one column per taxonomy row",
+        Slot::Logits => {
+            ".npy (rows, nodes) of float16/32/64, one column per taxonomy row, or an .npz bundle holding `logits` (and optionally `labels`, `objectness`)"
+        }
         Slot::Labels => {
             "CSV with a label column (node id; empty = background), or .npy of column indices"
         }

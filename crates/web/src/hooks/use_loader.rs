@@ -6,19 +6,23 @@
 //! (`Board::wanted_ingest`: once a taxonomy is there, again after a temperature change) it is
 //! read in chunks through `hedgerow_core::LogitsReader`, yielding to the browser between
 //! chunks so the page stays responsive, with progress and a working Cancel.
+//!
+//! An `.npz` bundle is a logits file too: its tail and directory are read with `Blob.slice`
+//! (`hedgerow_board::state::Bundle`), its `logits` member's compressed bytes are streamed in
+//! the same chunks through the inflater (`LogitsFeed`), and its small `labels` and
+//! `objectness` members are read whole into their slots (`Action::BundleChosen`), unless the
+//! same selection holds those files. The whole bundle is never read into memory.
 
 use std::cell::{Cell, RefCell};
 use std::collections::HashMap;
 use std::rc::Rc;
 
-use hedgerow_board::state::{recognise, Action, IngestKey, Slot};
-use hedgerow_core::{
-    Error, ErrorKind, Errors, Ingested, Location, LogitsReader, Taxonomy, Temperatures,
-};
+use hedgerow_board::state::{is_bundle, recognise, Action, Bundle, IngestKey, LogitsFeed, Slot};
+use hedgerow_core::{npz, Error, ErrorKind, Errors, Ingested, Location, Taxonomy, Temperatures};
 use web_sys::File;
 use yew::prelude::*;
 
-use crate::browser::{self, next_tick, read_range};
+use crate::browser::{self, finish_read, next_tick, read_range, start_read};
 use crate::demo_data;
 use crate::store::BoardState;
 
@@ -42,23 +46,80 @@ impl Source {
         }
     }
 
-    async fn read(&self, start: u64, end: u64) -> Result<Vec<u8>, String> {
+    /// Start reading `start..end`: the browser reads a file's bytes while the page goes on
+    /// (the next chunk is read while this one is decoded).
+    fn start_read(&self, start: u64, end: u64) -> Pending {
         match self {
-            Source::File(f) => read_range(f, start, end).await,
-            Source::Demo(b) => Ok(b
-                .get(start as usize..end as usize)
-                .unwrap_or_default()
-                .to_vec()),
+            Source::File(f) => Pending::Reading(start_read(f, start, end)),
+            Source::Demo(b) => Pending::Ready(
+                b.get(start as usize..end as usize)
+                    .unwrap_or_default()
+                    .to_vec(),
+            ),
         }
     }
+}
+
+/// A read started by [`Source::start_read`].
+enum Pending {
+    Reading(Result<wasm_bindgen_futures::JsFuture, String>),
+    Ready(Vec<u8>),
+}
+
+impl Pending {
+    async fn bytes(self) -> Result<Vec<u8>, String> {
+        match self {
+            Pending::Reading(r) => finish_read(r?).await,
+            Pending::Ready(b) => Ok(b),
+        }
+    }
+}
+
+/// A chosen logits file: where its bytes come from and which of them hold the array.
+#[derive(Clone)]
+struct Logits {
+    source: Source,
+    /// The bytes to stream: the whole file, or a bundle member's compressed data.
+    range: (u64, u64),
+    /// The bundle's name and its `logits` member, when `range` is one.
+    member: Option<(String, npz::Member)>,
+}
+
+impl Logits {
+    fn whole(source: Source) -> Self {
+        let len = source.len();
+        Logits {
+            source,
+            range: (0, len),
+            member: None,
+        }
+    }
+}
+
+/// A file of a selection, recognised and (unless it is logits) read.
+enum Picked {
+    Whole(String, Rc<Vec<u8>>),
+    Npy(File),
+    Bundle(Box<OpenBundle>),
+}
+
+/// A bundle ready to choose: its directory read, the logits member located, the small
+/// members read (or why not).
+struct OpenBundle {
+    name: String,
+    keys: Vec<String>,
+    logits: Logits,
+    labels: Option<Rc<Vec<u8>>>,
+    objectness: Option<Rc<Vec<u8>>>,
+    problems: Vec<(Slot, String)>,
 }
 
 #[derive(Default)]
 struct Shared {
     /// Logits sources by file name (the board refers to logits by name).
-    sources: RefCell<HashMap<String, Source>>,
+    sources: RefCell<HashMap<String, Logits>>,
     /// The source the latest choice replaced under the same name, put back on Cancel.
-    replaced: RefCell<Option<(String, Option<Source>)>>,
+    replaced: RefCell<Option<(String, Option<Logits>)>>,
     /// The current read's ticket: bumping it abandons a read in flight.
     ticket: Cell<u64>,
     running: Cell<bool>,
@@ -93,7 +154,7 @@ impl Loader {
         });
         self.choose_logits(
             demo_data::LOGITS.name.into(),
-            Source::Demo(demo_data::LOGITS.bytes),
+            Logits::whole(Source::Demo(demo_data::LOGITS.bytes)),
         );
         for f in [demo_data::LABELS, demo_data::OBJECTNESS] {
             self.dispatch(Action::File {
@@ -103,18 +164,20 @@ impl Loader {
         }
     }
 
-    /// Load chosen or dropped files: each is recognised from its first bytes, then they are
-    /// handed over taxonomy first (labels and profiles are read against it).
+    /// Load chosen or dropped files: each is recognised from its first bytes and read (a
+    /// bundle's directory and small members; logits are only located), then they are handed
+    /// over together, taxonomy first (labels and profiles are read against it), so the board
+    /// never sees half a selection.
     pub fn load_files(&self, files: Vec<File>) {
         let this = self.clone();
         wasm_bindgen_futures::spawn_local(async move {
-            let mut known: Vec<(Slot, File)> = Vec::new();
+            let mut known: Vec<(Slot, File, bool)> = Vec::new();
             for file in files {
                 let name = file.name();
                 let size = file.size().max(0.0) as u64;
                 match read_range(&file, 0, size.min(HEAD)).await {
                     Ok(head) => match recognise(&name, &head) {
-                        Ok(slot) => known.push((slot, file)),
+                        Ok(slot) => known.push((slot, file, is_bundle(&head))),
                         Err(message) => this.dispatch(Action::Unreadable {
                             slot: None,
                             message,
@@ -126,38 +189,80 @@ impl Loader {
                     }),
                 }
             }
-            known.sort_by_key(|(slot, _)| *slot);
-            for (slot, file) in known {
+            known.sort_by_key(|(slot, _, _)| *slot);
+            let given: Vec<Slot> = known.iter().map(|(slot, _, _)| *slot).collect();
+            let mut picked: Vec<Picked> = Vec::new();
+            for (slot, file, bundle) in known {
                 let name = file.name();
+                if bundle {
+                    match open_bundle(&file, &given).await {
+                        Ok(b) => picked.push(Picked::Bundle(Box::new(b))),
+                        Err(message) => this.dispatch(Action::Unreadable {
+                            slot: Some(Slot::Logits),
+                            message,
+                        }),
+                    }
+                    continue;
+                }
                 if slot == Slot::Logits {
-                    this.choose_logits(name, Source::File(file));
+                    picked.push(Picked::Npy(file));
                     continue;
                 }
                 let size = file.size().max(0.0) as u64;
                 match read_range(&file, 0, size).await {
-                    Ok(bytes) => this.dispatch(Action::File {
-                        name,
-                        bytes: Rc::new(bytes),
-                    }),
+                    Ok(bytes) => picked.push(Picked::Whole(name, Rc::new(bytes))),
                     Err(e) => this.dispatch(Action::Unreadable {
                         slot: Some(slot),
                         message: format!("{name}: could not be read: {e}"),
                     }),
                 }
             }
+            for p in picked {
+                match p {
+                    Picked::Whole(name, bytes) => this.dispatch(Action::File { name, bytes }),
+                    Picked::Npy(file) => {
+                        this.choose_logits(file.name(), Logits::whole(Source::File(file)))
+                    }
+                    Picked::Bundle(b) => this.choose_bundle(*b),
+                }
+            }
         });
     }
 
-    fn choose_logits(&self, name: String, source: Source) {
-        let total = source.len();
+    fn choose_logits(&self, name: String, logits: Logits) {
+        let total = self.register(&name, logits);
+        self.dispatch(Action::LogitsChosen { name, total });
+    }
+
+    fn choose_bundle(&self, b: OpenBundle) {
+        let total = self.register(&b.name, b.logits);
+        self.dispatch(Action::BundleChosen {
+            name: b.name,
+            total,
+            keys: b.keys,
+            labels: b.labels,
+            objectness: b.objectness,
+        });
+        for (slot, message) in b.problems {
+            self.dispatch(Action::Unreadable {
+                slot: Some(slot),
+                message,
+            });
+        }
+    }
+
+    /// Keep a chosen logits file by name, remembering what it replaced (for Cancel), and stop
+    /// any read in flight. Returns the bytes its read will count.
+    fn register(&self, name: &str, logits: Logits) -> u64 {
+        let total = logits.range.1.saturating_sub(logits.range.0);
         let previous = self
             .shared
             .sources
             .borrow_mut()
-            .insert(name.clone(), source);
-        *self.shared.replaced.borrow_mut() = Some((name.clone(), previous));
+            .insert(name.to_string(), logits);
+        *self.shared.replaced.borrow_mut() = Some((name.to_string(), previous));
         self.abandon();
-        self.dispatch(Action::LogitsChosen { name, total });
+        total
     }
 
     /// Stop the read in flight (it dispatches nothing more).
@@ -204,8 +309,9 @@ impl Loader {
         let this = self.clone();
         wasm_bindgen_futures::spawn_local(async move {
             let started = browser::now();
+            browser::mark("hedgerow:logits-read-start");
             let result = match source {
-                Some(source) => this.stream(&source, &name, &tax, &key, ticket).await,
+                Some(logits) => this.stream(&logits, &name, &tax, &key, ticket).await,
                 None => Some(Err(problem(
                     &name,
                     Location::default(),
@@ -220,6 +326,7 @@ impl Loader {
                 return;
             }
             this.shared.running.set(false);
+            browser::mark("hedgerow:logits-read-end");
             if result.is_ok() {
                 this.shared.last_read_ms.set(Some(browser::now() - started));
                 this.shared.replaced.borrow_mut().take();
@@ -230,20 +337,40 @@ impl Loader {
 
     async fn stream(
         &self,
-        source: &Source,
+        logits: &Logits,
         name: &str,
         tax: &Taxonomy,
         key: &IngestKey,
         ticket: u64,
     ) -> Option<Result<Ingested, Errors>> {
         let live = || self.shared.ticket.get() == ticket;
-        let total = source.len();
-        let mut reader = LogitsReader::new(name, tax, &Temperatures(key.temperatures.clone()));
+        let temps = Temperatures(key.temperatures.clone());
+        let mut reader = match &logits.member {
+            None => LogitsFeed::npy(name, tax, &temps),
+            Some((bundle, member)) => match LogitsFeed::member(bundle, member, tax, &temps) {
+                Ok(feed) => feed,
+                Err(e) => return Some(Err(e)),
+            },
+        };
+        let (start, stop) = logits.range;
+        let total = stop.saturating_sub(start);
         self.dispatch(Action::LogitsProgress { done: 0 });
         let mut done = 0;
+        let mut next = Some(logits.source.start_read(start, start + CHUNK.min(total)));
         while done < total {
             let end = (done + CHUNK).min(total);
-            let chunk = source.read(done, end).await;
+            let chunk = match next.take() {
+                Some(read) => read.bytes().await,
+                None => Ok(Vec::new()),
+            };
+            // The browser reads the next chunk while this one is decoded.
+            if end < total {
+                next = Some(
+                    logits
+                        .source
+                        .start_read(start + end, start + (end + CHUNK).min(total)),
+                );
+            }
             if !live() {
                 return None;
             }
@@ -252,7 +379,7 @@ impl Loader {
                 Err(e) => {
                     return Some(Err(problem(
                         name,
-                        Location::byte(done),
+                        Location::byte(start + done),
                         "reading the file",
                         "its bytes",
                         &e,
@@ -271,6 +398,73 @@ impl Loader {
         }
         Some(reader.finish(tax))
     }
+}
+
+/// Read a bundle's directory from its tail, locate its `logits` member and read the small
+/// members whole (unless `given` holds their slot: files chosen alongside win). An error is
+/// the whole bundle's (shown beside the logits); a small member's problem is kept for its slot.
+async fn open_bundle(file: &File, given: &[Slot]) -> Result<OpenBundle, String> {
+    let name = file.name();
+    let len = file.size().max(0.0) as u64;
+    let read = |start: u64, end: u64| {
+        let name = name.clone();
+        async move {
+            read_range(file, start, end)
+                .await
+                .map_err(|e| format!("{name}: could not be read: {e}"))
+        }
+    };
+    let (a, z) = Bundle::tail(len);
+    let tail = read(a, z).await?;
+    let (ds, de) = Bundle::directory(&name, &tail, len)?;
+    let bundle = Bundle::open(&name, len, &read(ds, de).await?)?;
+    let data_range = |m: npz::Member| {
+        let bundle = &bundle;
+        async move {
+            let local = read(m.local_header, m.local_header + npz::LOCAL_HEADER_BYTES).await?;
+            bundle.data_range(&m, &local)
+        }
+    };
+    let member = bundle.member("logits").cloned().ok_or("no logits member")?;
+    let range = data_range(member.clone()).await?;
+    let mut problems = Vec::new();
+    let mut small = Vec::new();
+    for (slot, key) in [(Slot::Labels, "labels"), (Slot::Objectness, "objectness")] {
+        let m = match bundle.member(key) {
+            Some(m) if !given.contains(&slot) => m.clone(),
+            _ => {
+                small.push(None);
+                continue;
+            }
+        };
+        let bytes = match data_range(m.clone()).await {
+            Ok((s, e)) => match read(s, e).await {
+                Ok(data) => bundle.inflate(&m, &data),
+                Err(e) => Err(e),
+            },
+            Err(e) => Err(e),
+        };
+        match bytes {
+            Ok(b) => small.push(Some(Rc::new(b))),
+            Err(message) => {
+                problems.push((slot, message));
+                small.push(None);
+            }
+        }
+    }
+    let mut small = small.into_iter();
+    Ok(OpenBundle {
+        keys: bundle.keys(),
+        logits: Logits {
+            source: Source::File(file.clone()),
+            range,
+            member: Some((name.clone(), member)),
+        },
+        labels: small.next().flatten(),
+        objectness: small.next().flatten(),
+        problems,
+        name,
+    })
 }
 
 fn problem(file: &str, at: Location, what: &str, expected: &str, found: &str) -> Errors {
