@@ -66,19 +66,26 @@ pub fn ensure_venv(root: &Path) -> anyhow::Result<PathBuf> {
     let venv = root.join(".venv");
     let python = venv_python(&venv);
     let requirements = root.join(REQUIREMENTS);
-    let wanted = fs::read(&requirements)
-        .with_context(|| format!("reading {}", requirements.display()))?;
+    let wanted =
+        fs::read(&requirements).with_context(|| format!("reading {}", requirements.display()))?;
     let stamp = venv.join(STAMP);
 
     if !python.exists() {
         eprintln!("pyenv: creating {}", venv.display());
         create_venv(&venv, false)?;
     } else if !runs(&python) {
-        eprintln!("pyenv: {} does not start; recreating {}", python.display(), venv.display());
+        eprintln!(
+            "pyenv: {} does not start; recreating {}",
+            python.display(),
+            venv.display()
+        );
         create_venv(&venv, true)?;
     }
     if !runs(&python) {
-        bail!("{} does not start after creating the venv", python.display());
+        bail!(
+            "{} does not start after creating the venv",
+            python.display()
+        );
     }
 
     let installed = fs::read(&stamp).ok();
@@ -91,12 +98,22 @@ pub fn ensure_venv(root: &Path) -> anyhow::Result<PathBuf> {
             }
         }
         let status = Command::new(&python)
-            .args(["-m", "pip", "install", "--disable-pip-version-check", "--quiet", "-r"])
+            .args([
+                "-m",
+                "pip",
+                "install",
+                "--disable-pip-version-check",
+                "--quiet",
+                "-r",
+            ])
             .arg(&requirements)
             .status()
             .with_context(|| format!("running {} -m pip", python.display()))?;
         if !status.success() {
-            bail!("pip install -r {} failed ({status})", requirements.display());
+            bail!(
+                "pip install -r {} failed ({status})",
+                requirements.display()
+            );
         }
         fs::write(&stamp, &wanted).with_context(|| format!("writing {}", stamp.display()))?;
     }

@@ -27,17 +27,40 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
     };
 
     step("wasm32 target", &mut || ensure_wasm_target())?;
-    step("cargo test (core, cli, board, xtask)", &mut || cargo(&root, &["test"]))?;
-    step("core builds for wasm32-unknown-unknown", &mut || cargo(&root, &["build", "-p", "hedgerow-core", "--target", "wasm32-unknown-unknown"]))?;
+    step("cargo test (core, cli, board, xtask)", &mut || {
+        cargo(&root, &["test"])
+    })?;
+    step("core builds for wasm32-unknown-unknown", &mut || {
+        cargo(
+            &root,
+            &[
+                "build",
+                "-p",
+                "hedgerow-core",
+                "--target",
+                "wasm32-unknown-unknown",
+            ],
+        )
+    })?;
     if !skip("--no-python") {
-        step("CLI build for the external checks", &mut || cargo(&root, &["build", "-p", "hedgerow-cli"]))?;
+        step("CLI build for the external checks", &mut || {
+            cargo(&root, &["build", "-p", "hedgerow-cli"])
+        })?;
         let bin = root.join("target/debug/hedgerow");
-        step("external checks: numpy reference and hiclass (Python venv)", &mut || pyenv::run_checks(&root, &bin))?;
+        step(
+            "external checks: numpy reference and hiclass (Python venv)",
+            &mut || pyenv::run_checks(&root, &bin),
+        )?;
     }
     if !skip("--no-browser") {
-        step("page end-to-end tests in headless Chromium", &mut || e2e::run(&[]))?;
+        step("page end-to-end tests in headless Chromium", &mut || {
+            e2e::run(&[])
+        })?;
     }
-    eprintln!("\nall test steps passed in {:.0} s:", started.elapsed().as_secs_f64());
+    eprintln!(
+        "\nall test steps passed in {:.0} s:",
+        started.elapsed().as_secs_f64()
+    );
     for (name, secs) in &steps {
         eprintln!("  {secs:>6.1} s  {name}");
     }
@@ -46,7 +69,11 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
 
 fn cargo(root: &Path, args: &[&str]) -> anyhow::Result<()> {
     let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
-    let status = Command::new(cargo).current_dir(root).args(args).status().context("cannot run cargo")?;
+    let status = Command::new(cargo)
+        .current_dir(root)
+        .args(args)
+        .status()
+        .context("cannot run cargo")?;
     if !status.success() {
         bail!("cargo {} failed ({status})", args.join(" "));
     }
@@ -55,11 +82,20 @@ fn cargo(root: &Path, args: &[&str]) -> anyhow::Result<()> {
 
 /// Install the wasm target through rustup when it is missing.
 pub fn ensure_wasm_target() -> anyhow::Result<()> {
-    let out = Command::new("rustup").args(["target", "list", "--installed"]).output().context("cannot run rustup")?;
-    if String::from_utf8_lossy(&out.stdout).lines().any(|l| l.trim() == "wasm32-unknown-unknown") {
+    let out = Command::new("rustup")
+        .args(["target", "list", "--installed"])
+        .output()
+        .context("cannot run rustup")?;
+    if String::from_utf8_lossy(&out.stdout)
+        .lines()
+        .any(|l| l.trim() == "wasm32-unknown-unknown")
+    {
         return Ok(());
     }
-    let status = Command::new("rustup").args(["target", "add", "wasm32-unknown-unknown"]).status().context("cannot run rustup")?;
+    let status = Command::new("rustup")
+        .args(["target", "add", "wasm32-unknown-unknown"])
+        .status()
+        .context("cannot run rustup")?;
     if !status.success() {
         bail!("rustup target add wasm32-unknown-unknown failed");
     }

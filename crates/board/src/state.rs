@@ -465,29 +465,6 @@ const MEMBER_SLOTS: [Slot; 2] = [Slot::Labels, Slot::Objectness];
 /// than a pixel at any sensible chart size, and a million-row curve stays a few thousand points.
 const CURVE_RESOLUTION: f64 = 1.0 / 2000.0;
 
-/// Keep a point once it has moved at least `resolution` (in precision or specificity) from the
-/// last kept one; the first and last points are always kept.
-fn thin(points: impl Iterator<Item = TradePoint>, resolution: f64) -> Vec<TradePoint> {
-    let mut out: Vec<TradePoint> = Vec::new();
-    let mut pending = None;
-    for p in points {
-        match out.last() {
-            Some(last)
-                if (last.specificity - p.specificity).abs() < resolution
-                    && (last.precision - p.precision).abs() < resolution =>
-            {
-                pending = Some(p);
-            }
-            _ => {
-                out.push(p);
-                pending = None;
-            }
-        }
-    }
-    out.extend(pending);
-    out
-}
-
 #[derive(Debug, Clone, PartialEq)]
 struct SweepKey {
     depth: usize,
@@ -1055,16 +1032,17 @@ impl Board {
             _ => {
                 // Exact: one breakpoint per row that reaches the depth (not a sampled grid).
                 let mut d = DepthDrag::new(&a.taxonomy, &a.batch, &self.settings, depth);
-                let points = thin(
-                    d.sweep(&a.taxonomy, &a.batch).into_iter().filter_map(|p| {
+                let points = d
+                    .sweep_within(&a.taxonomy, &a.batch, CURVE_RESOLUTION)
+                    .into_iter()
+                    .filter_map(|p| {
                         Some(TradePoint {
                             threshold: p.threshold,
                             specificity: p.specificity?,
                             precision: p.precision?,
                         })
-                    }),
-                    CURVE_RESOLUTION,
-                );
+                    })
+                    .collect();
                 self.sweep = Rc::new(points);
                 self.sweep_key = Some(key);
                 self.metrics = Some(d.set(&a.taxonomy, &a.batch, t));

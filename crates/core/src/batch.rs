@@ -270,7 +270,7 @@ impl Objectness {
 /// change nothing here.
 #[derive(Debug, Clone)]
 pub struct Batch {
-    paths: Paths,
+    paths: std::sync::Arc<Paths>,
     labels: Vec<u32>,
     objectness: Option<Vec<f32>>,
     /// Depth of the lowest common ancestor of the row's path leaf and its label (0 for
@@ -346,12 +346,13 @@ impl Batch {
     /// Assemble from already validated parts (lengths must agree).
     pub fn from_parts(
         tax: &Taxonomy,
-        paths: Paths,
+        paths: impl Into<std::sync::Arc<Paths>>,
         labels: Vec<u32>,
         objectness: Option<Vec<f32>>,
         temperatures: Temperatures,
         fingerprint: String,
     ) -> Self {
+        let paths = paths.into();
         let (agree, label_depth) = labels
             .iter()
             .zip(paths.leaves())

@@ -102,12 +102,13 @@ pub struct CurveIndex {
 impl CurveIndex {
     pub fn new(tax: &Taxonomy, batch: &Batch, rule: Rule) -> Self {
         // A row's equal consecutive m_d merge into the deepest d, so each event moves its row
-        // strictly deeper.
-        let mut events: Vec<Event> = Vec::with_capacity(batch.len() * 2);
-        for r in 0..batch.len() {
+        // strictly deeper. Counted first, so the list is allocated once at its exact size (it
+        // is the largest thing the page holds for a big batch).
+        let each_row = |r: usize, emit: &mut dyn FnMut(u64, u8)| {
             let leaf = batch.paths().leaf(r);
             let cond = batch.paths().cond(r);
             let (mut p, mut m) = (batch.root_probability(r), f64::INFINITY);
+            let mut last: Option<(u64, u8)> = None;
             for d in 1..=tax.depth(leaf) {
                 let c = cond[d - 1] as f64;
                 p *= c;
@@ -117,15 +118,32 @@ impl CurveIndex {
                 };
                 m = m.min(q);
                 let key = m.max(0.0).to_bits();
-                match events.last_mut() {
-                    Some(last) if last.row == r as u32 && last.key == key => last.depth = d as u8,
-                    _ => events.push(Event {
-                        key,
-                        row: r as u32,
-                        depth: d as u8,
-                    }),
+                match last {
+                    Some((k, _)) if k == key => last = Some((key, d as u8)),
+                    Some((k, depth)) => {
+                        emit(k, depth);
+                        last = Some((key, d as u8));
+                    }
+                    None => last = Some((key, d as u8)),
                 }
             }
+            if let Some((k, depth)) = last {
+                emit(k, depth);
+            }
+        };
+        let mut count = 0usize;
+        for r in 0..batch.len() {
+            each_row(r, &mut |_, _| count += 1);
+        }
+        let mut events: Vec<Event> = Vec::with_capacity(count);
+        for r in 0..batch.len() {
+            each_row(r, &mut |key, depth| {
+                events.push(Event {
+                    key,
+                    row: r as u32,
+                    depth,
+                })
+            });
         }
         events.sort_unstable_by_key(|e| std::cmp::Reverse(e.key));
         CurveIndex { rule, events }
@@ -275,6 +293,7 @@ pub(crate) fn sweep_moves(
     policy: Policy,
     moves: &[crate::drag::Move],
     high: &[Option<u8>],
+    resolution: f64,
 ) -> Vec<CurvePoint> {
     let mut run = Running::default();
     let mut predicting = 0u64;
@@ -290,6 +309,7 @@ pub(crate) fn sweep_moves(
         }
     }
     let mut out = vec![run.point(0.0, predicting, policy)];
+    let mut pending = None;
     let mut i = 0;
     while i < moves.len() {
         let b = moves[i].at;
@@ -304,7 +324,24 @@ pub(crate) fn sweep_moves(
         if b >= 1.0 {
             break;
         }
-        out.push(run.point(b, predicting, policy));
+        let p = run.point(b, predicting, policy);
+        match out.last() {
+            Some(last) if resolution > 0.0 && near(last, &p, resolution) => pending = Some(p),
+            _ => {
+                out.push(p);
+                pending = None;
+            }
+        }
     }
+    out.extend(pending);
     out
+}
+
+/// Whether two points are within `resolution` in both precision and specificity.
+fn near(a: &CurvePoint, b: &CurvePoint, resolution: f64) -> bool {
+    let close = |x: Option<f64>, y: Option<f64>| match (x, y) {
+        (Some(x), Some(y)) => (x - y).abs() < resolution,
+        (x, y) => x == y,
+    };
+    close(a.specificity, b.specificity) && close(a.precision, b.precision)
 }

@@ -138,7 +138,25 @@ impl DepthDrag {
     /// The operating point's path as this depth's threshold goes from 0 to 1 (exact; the
     /// first point is t = 0, each further one holds just above its threshold).
     pub fn sweep(&self, tax: &Taxonomy, batch: &Batch) -> Vec<crate::CurvePoint> {
-        crate::curve::sweep_moves(tax, batch, self.settings.policy, &self.moves, &self.high)
+        self.sweep_within(tax, batch, 0.0)
+    }
+
+    /// [`sweep`](Self::sweep) drawn to a resolution: a point is kept once precision or
+    /// specificity moved by at least `resolution` (first and last always kept).
+    pub fn sweep_within(
+        &self,
+        tax: &Taxonomy,
+        batch: &Batch,
+        resolution: f64,
+    ) -> Vec<crate::CurvePoint> {
+        crate::curve::sweep_moves(
+            tax,
+            batch,
+            self.settings.policy,
+            &self.moves,
+            &self.high,
+            resolution,
+        )
     }
 
     /// Move the threshold to `t` and return the metrics there.

@@ -157,7 +157,8 @@ fn all_finite(dtype: Dtype, row: &[u8]) -> bool {
 /// The result of reading a logits file.
 #[derive(Debug, Clone)]
 pub struct Ingested {
-    pub paths: Paths,
+    /// Shared, so a batch built from it (and rebuilt when labels change) holds no second copy.
+    pub paths: std::sync::Arc<Paths>,
     /// blake3 of the file's bytes.
     pub digest: String,
     pub header: Header,
@@ -450,7 +451,7 @@ impl LogitsReader {
         let file = self.file.clone();
         self.errors.finish(&file)?;
         Ok(Ingested {
-            paths: self.paths,
+            paths: std::sync::Arc::new(self.paths),
             digest: self.hasher.finalize().to_hex().to_string(),
             header,
         })
