@@ -119,6 +119,7 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
         bail!("dist/index.html is missing: run `cargo xtask build-web` or drop --no-build");
     }
     let cli = build_cli()?;
+    serve_command_serves_the_page()?;
     let built = Instant::now();
 
     let server = crate::web::StaticServer::bind(0, dist.clone())?;
@@ -224,4 +225,45 @@ fn slug(name: &str) -> String {
     name.chars()
         .map(|c| if c.is_ascii_alphanumeric() { c } else { '-' })
         .collect()
+}
+
+/// The README's main command, `cargo xtask serve`: this very binary with `serve` prints a URL
+/// on 127.0.0.1 whose `/` is the page.
+fn serve_command_serves_the_page() -> anyhow::Result<()> {
+    use std::io::{BufRead, BufReader, Read, Write};
+    let exe = std::env::current_exe().context("no path to the xtask binary")?;
+    let mut child = std::process::Command::new(exe)
+        .args(["serve", "--port", "0", "--no-build"])
+        .stdout(std::process::Stdio::piped())
+        .spawn()
+        .context("starting `xtask serve`")?;
+    let result = (|| -> anyhow::Result<()> {
+        let stdout = child.stdout.take().context("no stdout")?;
+        let mut line = String::new();
+        BufReader::new(stdout).read_line(&mut line)?;
+        let url = line
+            .split_whitespace()
+            .find(|w| w.starts_with("http://127.0.0.1:"))
+            .with_context(|| format!("serve printed no URL: {line:?}"))?;
+        let addr = url.trim_start_matches("http://").trim_end_matches('/');
+        let mut conn = std::net::TcpStream::connect(addr)?;
+        conn.set_read_timeout(Some(std::time::Duration::from_secs(10)))?;
+        write!(
+            conn,
+            "GET / HTTP/1.1\r\nHost: {addr}\r\nConnection: close\r\n\r\n"
+        )?;
+        let mut body = String::new();
+        conn.read_to_string(&mut body)?;
+        anyhow::ensure!(
+            body.starts_with("HTTP/1.1 200"),
+            "GET / answered {:?}",
+            body.lines().next()
+        );
+        anyhow::ensure!(body.contains("<title>hedgerow"), "GET / is not the page");
+        println!("  ok    serve: `cargo xtask serve` prints {url} and serves the page there");
+        Ok(())
+    })();
+    let _ = child.kill();
+    let _ = child.wait();
+    result
 }
