@@ -22,6 +22,7 @@ use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
+use crate::rng::Rng;
 use anyhow::{bail, ensure, Context};
 use half::f16;
 
@@ -217,65 +218,6 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
 }
 
 // ------------------------------------------------------------------------------------------
-// Random numbers
-
-fn splitmix64(state: &mut u64) -> u64 {
-    *state = state.wrapping_add(0x9E37_79B9_7F4A_7C15);
-    let mut z = *state;
-    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-    z ^ (z >> 31)
-}
-
-/// xoshiro256** (Blackman and Vigna), one independent stream per `(seed, stream)`.
-struct Rng {
-    s: [u64; 4],
-}
-
-impl Rng {
-    fn new(seed: u64, stream: u64) -> Self {
-        let mut sm = seed ^ stream.wrapping_mul(0xD1B5_4A32_D192_ED03);
-        Rng {
-            s: [
-                splitmix64(&mut sm),
-                splitmix64(&mut sm),
-                splitmix64(&mut sm),
-                splitmix64(&mut sm),
-            ],
-        }
-    }
-    #[inline]
-    fn next_u64(&mut self) -> u64 {
-        let result = self.s[1].wrapping_mul(5).rotate_left(7).wrapping_mul(9);
-        let t = self.s[1] << 17;
-        self.s[2] ^= self.s[0];
-        self.s[3] ^= self.s[1];
-        self.s[1] ^= self.s[2];
-        self.s[0] ^= self.s[3];
-        self.s[2] ^= t;
-        self.s[3] = self.s[3].rotate_left(45);
-        result
-    }
-    /// Uniform in [0, 1), 53 bits.
-    fn uniform(&mut self) -> f64 {
-        (self.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64)
-    }
-    /// Uniform integer in [0, n).
-    fn below(&mut self, n: u64) -> u64 {
-        ((u128::from(self.next_u64()) * u128::from(n)) >> 64) as u64
-    }
-    /// Approximately standard normal from one draw: the sum of four 16-bit uniforms, centred and
-    /// scaled to unit variance (Irwin–Hall, tails cut at ±3.46). Cheap enough for 10⁹ values.
-    #[inline]
-    fn normal(&mut self) -> f64 {
-        let x = self.next_u64();
-        let part = |k: u32| ((x >> (16 * k)) & 0xFFFF) as f64;
-        let sum = part(0) + part(1) + part(2) + part(3) + 2.0; // + 4 × 0.5: cell midpoints
-        (sum * (1.0 / 65536.0) - 2.0) * 1.732_050_807_568_877_2
-    }
-}
-
-// ------------------------------------------------------------------------------------------
 // Taxonomy
 
 /// The generated tree, columns in breadth-first order with every sibling group contiguous.
@@ -456,7 +398,7 @@ fn simulate_row(tree: &Tree, offsets: &[f64], seed: u64, row: u64, logits: &mut 
     let mut rng = Rng::new(seed, row);
     if rng.uniform() < BACKGROUND_RATE {
         for (v, z) in logits.iter_mut().enumerate() {
-            *z = offsets[tree.group_of[v]] + BACKGROUND_SD * rng.normal();
+            *z = offsets[tree.group_of[v]] + BACKGROUND_SD * rng.normal_fast();
         }
         let objectness = if rng.uniform() < BACKGROUND_FALSE_ALARM {
             0.45 + 0.30 * rng.uniform()
@@ -477,13 +419,13 @@ fn simulate_row(tree: &Tree, offsets: &[f64], seed: u64, row: u64, logits: &mut 
     };
     let clarity = (0.6 + 0.8 * rng.uniform()) * if occluded { 0.65 } else { 1.0 };
     for (v, z) in logits.iter_mut().enumerate() {
-        *z = offsets[tree.group_of[v]] + NOISE_SD * rng.normal();
+        *z = offsets[tree.group_of[v]] + NOISE_SD * rng.normal_fast();
     }
     let path = tree.path(leaf);
     let mut margin = MARGIN_TOP;
     for (i, &v) in path.iter().enumerate() {
         let m = margin.max(MARGIN_FLOOR) * clarity;
-        logits[v] += m + MARGIN_JITTER * rng.normal();
+        logits[v] += m + MARGIN_JITTER * rng.normal_fast();
         let kids = &tree.groups[tree.group_of[v]];
         let confuse = (CONFUSE_TOP + CONFUSE_STEP * i as f64).min(CONFUSE_MAX);
         if kids.len() > 1 && rng.uniform() < confuse {
@@ -491,7 +433,7 @@ fn simulate_row(tree: &Tree, offsets: &[f64], seed: u64, row: u64, logits: &mut 
             if other == v {
                 other = kids[kids.len() - 1];
             }
-            logits[other] += m + MARGIN_JITTER * rng.normal();
+            logits[other] += m + MARGIN_JITTER * rng.normal_fast();
         }
         margin *= MARGIN_SHRINK;
     }
@@ -527,7 +469,7 @@ pub fn generate(spec: &Spec, out: &Path) -> anyhow::Result<Summary> {
 
     let mut off_rng = Rng::new(spec.seed, u64::MAX - 1);
     let offsets: Vec<f64> = (0..tree.groups.len())
-        .map(|_| OFFSET_MEAN + OFFSET_SD * off_rng.normal())
+        .map(|_| OFFSET_MEAN + OFFSET_SD * off_rng.normal_fast())
         .collect();
 
     let logits_path = out.join("logits.npy");

@@ -5,7 +5,6 @@
 //! something realistic to chew on. Everything derives from [`SEED`]: the same source always
 //! produces the same bytes, and a test checks the committed `demo-data/` against it.
 
-mod rng;
 mod taxonomy;
 
 use std::path::{Path, PathBuf};
@@ -14,7 +13,7 @@ use anyhow::{bail, Context};
 use half::f16;
 
 use crate::npy_write;
-use rng::Rng;
+use crate::rng::Rng;
 use taxonomy::{csv_field, Taxonomy, UNLEARNED};
 
 /// "HEDGEROW" in ASCII.

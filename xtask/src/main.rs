@@ -6,6 +6,7 @@ mod demo;
 mod e2e;
 mod npy_write;
 mod pyenv;
+mod rng;
 mod test;
 mod web;
 
