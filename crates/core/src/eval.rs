@@ -222,9 +222,13 @@ pub fn evaluate(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Metrics {
         let depths: Vec<f64> = (1..=batch.paths().width())
             .map(|d| settings.thresholds.at_depth(d))
             .collect();
-        match settings.rule {
-            Rule::Cumulative => kernel::<true>(tax, batch, &depths, settings.thresholds.object),
-            Rule::Conditional => kernel::<false>(tax, batch, &depths, settings.thresholds.object),
+        let object = settings.thresholds.object;
+        // Past six levels most rows stop well before the leaf: leaving early pays.
+        match (settings.rule, depths.len() > 6) {
+            (Rule::Cumulative, false) => kernel::<true, false>(tax, batch, &depths, object),
+            (Rule::Cumulative, true) => kernel::<true, true>(tax, batch, &depths, object),
+            (Rule::Conditional, false) => kernel::<false, false>(tax, batch, &depths, object),
+            (Rule::Conditional, true) => kernel::<false, true>(tax, batch, &depths, object),
         }
     } else {
         general(tax, batch, settings)
@@ -235,7 +239,7 @@ pub fn evaluate(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Metrics {
 /// The fast path: per row, the stop depth is the number of leading depths that pass (padding
 /// beyond the leaf is negative, so it never passes); every count is updated with selects
 /// instead of branches, which keeps the data-dependent stop decision from stalling the CPU.
-fn kernel<const CUMULATIVE: bool>(
+fn kernel<const CUMULATIVE: bool, const EARLY_EXIT: bool>(
     tax: &Taxonomy,
     batch: &Batch,
     depths: &[f64],
@@ -262,9 +266,9 @@ fn kernel<const CUMULATIVE: bool>(
         let mut p = p_root;
         let mut alive = true;
         let mut s = 0usize;
-        // Depths in blocks of four without branches, leaving after a block in which descent
-        // stopped: deep taxonomies skip the depths no row reaches, at one well-predicted branch
-        // per block.
+        // Depths in blocks of four without branches; in deep taxonomies (EARLY_EXIT) leave
+        // after a block in which descent stopped, skipping depths no row reaches. In shallow
+        // ones the exit costs more than the block it would skip.
         for (rows, ts) in row.chunks(4).zip(depths.chunks(4)) {
             for (&c, &t) in rows.iter().zip(ts) {
                 let c = c as f64;
@@ -277,7 +281,7 @@ fn kernel<const CUMULATIVE: bool>(
                 alive &= q >= t;
                 s += alive as usize;
             }
-            if !alive {
+            if EARLY_EXIT && !alive {
                 break;
             }
         }
