@@ -84,6 +84,8 @@ pub fn dist_dir() -> PathBuf {
 pub fn build_with(opts: &BuildOptions) -> anyhow::Result<BuildOutput> {
     let started = Instant::now();
     let root = crate::root();
+    // A fresh machine (the README's first command) may not have the target yet.
+    crate::test::ensure_wasm_target()?;
     let wasm_in = cargo_build_wasm(&root)?;
     let compiled = Instant::now();
 
