@@ -2,7 +2,7 @@
 //! was expected. One table row per case.
 
 use crate::harness::{
-    hedgerow, logits, npy_f32, npy_header, objectness, Scratch, LABELS, TAXONOMY,
+    hedgerow, logits, npy_f32, npy_header, objectness, Scratch, INPUT, LABELS, TAXONOMY,
 };
 
 struct Case {
@@ -131,20 +131,9 @@ fn several_files_wrong_at_once_are_all_reported() {
     s.write("l.npy", &npy_f32("(4, 2)", &[0.0; 8]));
     s.write("y.csv", b"label\nnope\n");
     s.write("o.npy", &objectness(&[2.0, 0.5, 0.5, 0.5]));
-    let run = hedgerow(
-        &s.dir,
-        &[
-            "evaluate",
-            "--taxonomy",
-            "t.csv",
-            "--logits",
-            "l.npy",
-            "--labels",
-            "y.csv",
-            "--objectness",
-            "o.npy",
-        ],
-    );
+    let mut args = vec!["evaluate"];
+    args.extend(INPUT);
+    let run = hedgerow(&s.dir, &args);
     assert_eq!(run.code, 2);
     for want in ["y.csv, line 2", "o.npy, row 0", "l.npy: 2 columns"] {
         assert!(run.stderr.contains(want), "lacks {want}: {}", run.stderr);

@@ -1,6 +1,6 @@
 //! The commands agree with each other: JSON keys, profile round trip, decode and curve shapes.
 
-use crate::harness::{hedgerow, logits, objectness, Scratch, LABELS, TAXONOMY};
+use crate::harness::{hedgerow, logits, objectness, Scratch, INPUT, LABELS, TAXONOMY};
 
 fn batch(s: &Scratch) {
     s.write("t.csv", TAXONOMY.as_bytes());
@@ -8,17 +8,6 @@ fn batch(s: &Scratch) {
     s.write("y.csv", LABELS.as_bytes());
     s.write("o.npy", &objectness(&[0.9, 0.4, 0.2, 0.8]));
 }
-
-const INPUT: [&str; 8] = [
-    "--taxonomy",
-    "t.csv",
-    "--logits",
-    "l.npy",
-    "--labels",
-    "y.csv",
-    "--objectness",
-    "o.npy",
-];
 
 fn json(run: &crate::harness::Run) -> serde_json::Value {
     assert_eq!(run.code, 0, "{}", run.stderr);

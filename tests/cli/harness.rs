@@ -83,3 +83,15 @@ pub fn logits(rows: usize) -> Vec<u8> {
 pub fn objectness(values: &[f32]) -> Vec<u8> {
     npy_f32(&format!("({},)", values.len()), values)
 }
+
+/// The four input flags over the files the tests write (`t.csv`, `l.npy`, `y.csv`, `o.npy`).
+pub const INPUT: [&str; 8] = [
+    "--taxonomy",
+    "t.csv",
+    "--logits",
+    "l.npy",
+    "--labels",
+    "y.csv",
+    "--objectness",
+    "o.npy",
+];

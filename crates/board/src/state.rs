@@ -436,6 +436,8 @@ pub struct Board {
     /// changes.
     no_read_for: Option<IngestKey>,
     pending_total: u64,
+    /// The staged labels parsed against a taxonomy (by its fingerprint).
+    labels_read: Option<(Rc<Vec<u8>>, String, Rc<Labels>)>,
     /// What a `LogitsChosen` or `BundleChosen` replaced, put back by `LogitsCancelled`.
     before_choice: Option<BeforeChoice>,
 }
@@ -875,9 +877,24 @@ impl Board {
             return;
         };
         let labels = match &self.labels {
+            // Parsed once per (labels file, taxonomy): assembling runs again as the other
+            // files arrive, and a large CSV is not worth reading twice.
+            Some((_, bytes))
+                if self
+                    .labels_read
+                    .as_ref()
+                    .is_some_and(|(b, f, _)| Rc::ptr_eq(b, bytes) && f == tax.fingerprint()) =>
+            {
+                self.labels_read.as_ref().map(|(_, _, l)| (**l).clone())
+            }
             Some((name, bytes)) => match Labels::parse(bytes, name, &tax) {
                 Ok(l) => {
                     self.errors.remove(&Slot::Labels);
+                    self.labels_read = Some((
+                        bytes.clone(),
+                        tax.fingerprint().to_string(),
+                        Rc::new(l.clone()),
+                    ));
                     Some(l)
                 }
                 Err(e) => {
