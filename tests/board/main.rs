@@ -1,6 +1,8 @@
 //! The page's state and actions, natively: loading in any order, errors beside their file with
 //! the batch kept, every control re-scoring through the engine, profiles and stored settings.
 
+mod overrides;
+
 use std::rc::Rc;
 
 use hedgerow_board::state::{recognise, Action, Board, Slot, Stored};
@@ -46,12 +48,18 @@ fn pump(board: &mut Board, bytes: &[u8]) {
 
 fn loaded() -> Board {
     let mut b = Board::new();
+    load_demo(&mut b);
+    b
+}
+
+/// The demo's files into `b` (a fresh one, or one with settings restored).
+fn load_demo(b: &mut Board) {
     // Files in an awkward order: labels and logits before the taxonomy.
     b.apply(Action::File {
         name: "labels.csv".into(),
         bytes: demo("labels.csv"),
     });
-    stream_logits(&mut b, "logits.npy", &demo("logits.npy"));
+    stream_logits(b, "logits.npy", &demo("logits.npy"));
     assert!(b.active.is_none());
     b.apply(Action::File {
         name: "objectness.npy".into(),
@@ -61,10 +69,9 @@ fn loaded() -> Board {
         name: "taxonomy.csv".into(),
         bytes: demo("taxonomy.csv"),
     });
-    pump(&mut b, &demo("logits.npy"));
+    pump(b, &demo("logits.npy"));
     assert!(b.errors.is_empty(), "{:?}", b.errors);
     assert!(b.active.is_some(), "a whole batch is active");
-    b
 }
 
 fn check_against_engine(b: &Board) {
@@ -238,6 +245,7 @@ fn stored_settings_restore_and_temperatures_ask_for_a_new_read() {
         thresholds: vec![0.9, 0.8],
         temperatures: vec![1.0, 1.5],
         unverifiable: Policy::Exclude,
+        nodes: Default::default(),
     };
     let text = serde_json::to_string(&stored).expect("json");
     b.apply(Action::Restore(serde_json::from_str(&text).expect("back")));

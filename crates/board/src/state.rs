@@ -342,6 +342,24 @@ pub struct Stored {
     pub thresholds: Vec<f64>,
     pub temperatures: Vec<f64>,
     pub unverifiable: Policy,
+    /// Per-node overrides by node id (restored only onto a taxonomy that has those ids).
+    /// Absent in settings stored before overrides were kept.
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub nodes: BTreeMap<String, f64>,
+}
+
+impl Default for Stored {
+    /// The settings of a fresh page (the command line's defaults).
+    fn default() -> Self {
+        Stored {
+            rule: Rule::Cumulative,
+            object_threshold: 0.5,
+            thresholds: vec![0.5],
+            temperatures: Vec::new(),
+            unverifiable: Policy::Credit,
+            nodes: BTreeMap::new(),
+        }
+    }
 }
 
 /// What changes the state.
@@ -400,6 +418,9 @@ pub enum Action {
     /// The depth whose control the user is on: chart 1 shows its sweep.
     Focus(usize),
     Restore(Stored),
+    /// Back to the defaults (`Stored::default()`), per-node overrides cleared; the files and
+    /// the batch stay.
+    Reset,
     ClearErrors,
 }
 
@@ -440,6 +461,8 @@ pub struct Board {
     labels_read: Option<(Rc<Vec<u8>>, String, Rc<Labels>)>,
     /// What a `LogitsChosen` or `BundleChosen` replaced, put back by `LogitsCancelled`.
     before_choice: Option<BeforeChoice>,
+    /// Per-node overrides by id, waiting for a taxonomy to place them on (see `overrides`).
+    pub(crate) pending_nodes: Option<BTreeMap<String, f64>>,
 }
 
 /// The staged logits file, its paths and (when a bundle's members replaced them) the labels and
@@ -521,6 +544,7 @@ impl Board {
             thresholds: self.settings.thresholds.depths.clone(),
             temperatures: self.temperatures.0.clone(),
             unverifiable: self.settings.policy,
+            nodes: self.stored_nodes(),
         }
     }
 
@@ -732,8 +756,13 @@ impl Board {
                 {
                     self.temperatures = Temperatures(stored.temperatures);
                 }
+                self.pending_nodes = Some(stored.nodes);
                 self.fit_depths();
                 self.rescore();
+            }
+            Action::Reset => {
+                self.settings.thresholds.nodes.clear();
+                self.apply(Action::Restore(Stored::default()));
             }
             Action::ClearErrors => self.errors.clear(),
         }
@@ -779,6 +808,7 @@ impl Board {
                             tax.max_depth()
                         ),
                     );
+                    self.hold_nodes();
                     self.taxonomy = Some((name, Rc::new(tax)));
                     self.fit_depths();
                     self.assemble();
@@ -856,6 +886,7 @@ impl Board {
     /// Make the per-depth list exactly D long (repeating the last value), so every depth has
     /// its own control.
     fn fit_depths(&mut self) {
+        self.resolve_nodes();
         let d = self.depth();
         if d == 0 {
             return;
@@ -1157,7 +1188,7 @@ pub fn show_ratio(v: Option<f64>) -> String {
 pub const HELP: &[(&str, &str, &str)] = &[
     ("predictions", "predictions", "rows that predict: P(root) reached the object threshold"),
     ("precision", "precision", "share of predictions that are right: the true node or one of its ancestors (unverifiable ones per the policy)"),
-    ("specificity", "specificity", "mean information gain of the predicted node: 0 at the root, 1 at a leaf"),
+    ("specificity", "specificity (information gain)", "mean information gain of the predicted node: 0 at the root, 1 at a leaf"),
     ("reward", "reward", "mean information gain counted only for correct predictions"),
     ("hierarchical-precision", "hier. precision", "shared ancestors of prediction and label over the prediction's ancestors (micro, root excluded)"),
     ("hierarchical-recall", "hier. recall", "shared ancestors of prediction and label over the label's ancestors (micro, root excluded)"),

@@ -26,7 +26,12 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
-    /// Score a batch: counts, precision, specificity, reward, stop shares, hierarchical P/R/F1.
+    /// Score a batch: counts, precision, specificity (information gain), reward, stop shares,
+    /// hierarchical P/R/F1.
+    ///
+    /// Specificity here is the mean normalised information gain of the predicted node (0 at the
+    /// root, 1 at a leaf), not the true-negative rate; reward counts it for correct predictions
+    /// only.
     Evaluate {
         #[command(flatten)]
         input: Input,
@@ -46,7 +51,8 @@ enum Command {
         #[arg(long)]
         out: Option<PathBuf>,
     },
-    /// Write the exact precision/specificity curve for one threshold shared by all depths (CSV).
+    /// Write the exact precision/specificity (information gain) curve for one threshold shared
+    /// by all depths (CSV).
     Curve {
         #[command(flatten)]
         input: Input,
