@@ -215,3 +215,28 @@ fn npz_bundles_evaluate_like_separate_files() {
         out.stderr
     );
 }
+
+#[test]
+fn help_says_specificity_is_information_gain() {
+    // Most readers take the bare word for the true-negative rate.
+    let s = Scratch::new("help");
+    for args in [
+        &["--help"][..],
+        &["evaluate", "--help"],
+        &["curve", "--help"],
+    ] {
+        let run = hedgerow(&s.dir, args);
+        assert_eq!(run.code, 0, "{args:?}: {}", run.stderr);
+        assert!(
+            run.stdout.contains("specificity (information gain)"),
+            "{args:?}: {}",
+            run.stdout
+        );
+    }
+    let run = hedgerow(&s.dir, &["evaluate", "--help"]);
+    assert!(
+        run.stdout.contains("not the true-negative rate"),
+        "{}",
+        run.stdout
+    );
+}
