@@ -39,6 +39,7 @@ pub mod curve;
 pub mod drag;
 pub mod error;
 pub mod eval;
+pub mod intake;
 pub mod npy;
 pub mod npz;
 pub mod paths;
