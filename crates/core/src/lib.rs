@@ -45,6 +45,7 @@ pub mod npz;
 pub mod paths;
 pub mod profile;
 pub mod settings;
+pub mod stats;
 pub mod taxonomy;
 
 pub use batch::{Batch, Labels, Objectness};
