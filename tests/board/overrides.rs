@@ -5,34 +5,62 @@ use std::collections::BTreeMap;
 use std::rc::Rc;
 
 use hedgerow_board::overrides::NodeOverride;
-use hedgerow_board::state::{Action, Board, Stored};
-use hedgerow_core::Taxonomy;
+use hedgerow_board::state::{Action, Board, Origin, Stored};
+use hedgerow_board::wording::LocalTime;
+use hedgerow_core::{Rule, Taxonomy};
 
-use super::{check_against_engine, demo, load_demo, loaded, TREE};
-
-/// A profile of `b`'s settings with these per-node thresholds (the CLI has no flag for them;
-/// the page and the CLI read them from the profile's `node_thresholds`).
-fn profile_with(b: &Board, nodes: &[(&str, f64)]) -> Rc<Vec<u8>> {
-    let mut p = b.profile().expect("a profile of the loaded batch");
-    p.node_thresholds = ids(nodes);
-    Rc::new(p.to_json().into_bytes())
-}
+use super::shell::Shell;
+use super::{check_against_engine, demo, demo_board, fixture, loaded, TREE};
 
 fn ids(nodes: &[(&str, f64)]) -> BTreeMap<String, f64> {
     nodes.iter().map(|&(id, t)| (id.to_string(), t)).collect()
 }
 
-fn with_overrides() -> Board {
-    let mut b = loaded();
-    let profile = profile_with(&b, &[("pet-bottle", 0.8), ("glass", 0.95)]);
+/// A profile of `b`'s settings with these per-node thresholds (the CLI has no flag for them;
+/// the page and the CLI read them from the profile's `node_thresholds`).
+fn give_profile_with(b: &mut Board, nodes: &[(&str, f64)]) {
+    let mut p = b.profile().expect("a profile of the batch in use");
+    p.node_thresholds = ids(nodes);
     b.apply(Action::File {
         name: "nodes.json".into(),
-        bytes: profile,
+        bytes: Rc::new(p.to_json().into_bytes()),
+        origin: Origin::User,
     });
     assert!(b.errors.is_empty(), "{:?}", b.errors);
+}
+
+fn with_overrides() -> Board {
+    let mut b = loaded();
+    give_profile_with(&mut b, &[("pet-bottle", 0.8), ("glass", 0.95)]);
     assert_eq!(b.settings.thresholds.nodes.len(), 2);
     check_against_engine(&b);
     b
+}
+
+/// The demo's files into a board that may have settings restored already.
+fn load_demo(b: &mut Board) {
+    let files =
+        ["taxonomy.csv", "logits.npy", "labels.csv", "objectness.npy"].map(|n| (n, demo(n)));
+    let given: Vec<(&str, &[u8])> = files.iter().map(|(n, v)| (*n, v.as_slice())).collect();
+    Shell::new().give_from(b, &given, Origin::Demo);
+    assert!(b.errors.is_empty(), "{:?}", b.errors);
+    assert!(b.active.is_some());
+}
+
+/// The 7-node tree's batch (numpy's own fixtures) into `b`, replacing the batch in use.
+fn load_tree(b: &mut Board) {
+    let logits = fixture("logits-f64.npy");
+    let labels = fixture("labels-int64.npy");
+    Shell::new().give(
+        b,
+        &[
+            ("tree.csv", TREE.as_bytes()),
+            ("logits-f64.npy", &logits),
+            ("labels-int64.npy", &labels),
+        ],
+    );
+    assert!(b.errors.is_empty(), "{:?}", b.errors);
+    assert_eq!(b.depth(), 3, "the tree's batch is in use");
 }
 
 #[test]
@@ -65,14 +93,13 @@ fn reset_restores_the_defaults_clears_the_overrides_and_keeps_the_batch() {
         depth: 2,
         value: 0.7,
     });
-    b.apply(Action::SetRule(hedgerow_core::Rule::Conditional));
+    b.apply(Action::SetRule(Rule::Conditional));
     assert_ne!(b.metrics, fresh.metrics);
     let generation = b.generation;
     b.apply(Action::Reset);
     assert!(b.settings.thresholds.nodes.is_empty(), "overrides cleared");
     assert!(b.node_overrides().is_empty());
     assert_eq!(b.settings, fresh.settings, "the defaults");
-    assert_eq!(b.stored(), fresh.stored());
     assert_eq!(b.generation, generation, "the batch is kept");
     assert!(b.active.is_some());
     assert_eq!(b.metrics, fresh.metrics);
@@ -112,24 +139,20 @@ fn stored_overrides_round_trip_by_id_and_come_back_after_a_reload() {
 
 #[test]
 fn stored_overrides_are_dropped_for_another_taxonomy() {
-    let mut stored = Stored {
+    // The 7-node tree has a node `b` but no `pet-bottle`.
+    let mut page = Board::new();
+    page.apply(Action::Restore(Stored {
         nodes: ids(&[("pet-bottle", 0.8), ("b", 0.7)]),
         ..Stored::default()
-    };
-    let mut page = Board::new();
-    page.apply(Action::Restore(stored.clone()));
-    page.apply(Action::File {
-        name: "tree.csv".into(),
-        bytes: Rc::new(TREE.as_bytes().to_vec()),
-    });
-    // The 7-node tree has a node `b` (column 0) but no `pet-bottle`.
+    }));
+    load_tree(&mut page);
     let tree = Taxonomy::parse(TREE.as_bytes(), "tree.csv").expect("tree");
     assert_eq!(
         page.settings.thresholds.nodes,
         vec![(tree.lookup("b").expect("b"), 0.7)]
     );
-    stored.nodes = ids(&[("b", 0.7)]);
-    assert_eq!(page.stored().nodes, stored.nodes);
+    assert_eq!(page.stored().nodes, ids(&[("b", 0.7)]));
+    check_against_engine(&page);
     // Values a hand-edited store holds outside [0, 1] are dropped too.
     let mut page = Board::new();
     page.apply(Action::Restore(Stored {
@@ -142,30 +165,53 @@ fn stored_overrides_are_dropped_for_another_taxonomy() {
 }
 
 #[test]
-fn a_new_taxonomy_keeps_the_overrides_of_the_nodes_it_has_wherever_their_columns_are() {
-    let mut b = with_overrides();
+fn a_new_batch_keeps_the_overrides_of_the_nodes_its_taxonomy_has_wherever_their_columns_are() {
+    let (mut b, mut shell) = demo_board();
+    give_profile_with(&mut b, &[("pet-bottle", 0.8), ("glass", 0.95)]);
+    let before = b.node_overrides();
+    assert_eq!(before.len(), 2);
     // The demo taxonomy with its rows in reverse order: the same ids in other columns.
-    let text = String::from_utf8(demo("taxonomy.csv").to_vec()).expect("utf-8");
+    let text = String::from_utf8(demo("taxonomy.csv")).expect("utf-8");
     let mut lines: Vec<&str> = text.lines().collect();
     lines[1..].reverse();
     let reversed = lines.join("\n") + "\n";
     let tax = Taxonomy::parse(reversed.as_bytes(), "reversed.csv").expect("reversed");
-    let before = b.node_overrides();
-    b.apply(Action::File {
-        name: "reversed.csv".into(),
-        bytes: Rc::new(reversed.into_bytes()),
-    });
+    // The demo's logits are read again for it (the shell that gave them reads them).
+    shell.give(&mut b, &[("reversed.csv", reversed.as_bytes())]);
     assert!(b.errors.is_empty(), "{:?}", b.errors);
+    assert_eq!(
+        b.active.as_ref().map(|a| a.taxonomy.fingerprint()),
+        Some(tax.fingerprint()),
+        "the reversed taxonomy's batch is in use"
+    );
     assert_eq!(b.node_overrides(), before);
     let column = tax.lookup("pet-bottle").expect("pet-bottle");
     assert!(b.settings.thresholds.nodes.contains(&(column, 0.8)));
-    // Another taxonomy altogether: none of its nodes has an override.
-    b.apply(Action::File {
-        name: "tree.csv".into(),
-        bytes: Rc::new(TREE.as_bytes().to_vec()),
-    });
+    check_against_engine(&b);
+    // Another batch whose taxonomy has none of those nodes: they go, and stay gone.
+    load_tree(&mut b);
     assert!(b.settings.thresholds.nodes.is_empty());
+    assert!(b.node_overrides().is_empty());
     assert!(b.stored().nodes.is_empty());
+    check_against_engine(&b);
+    load_demo(&mut b);
+    assert!(b.settings.thresholds.nodes.is_empty(), "not brought back");
+    // While a new batch is staged but not read, the overrides stay on the batch in use.
+    give_profile_with(&mut b, &[("pet-bottle", 0.8)]);
+    let mut shell = Shell::new();
+    shell.stage(
+        &mut b,
+        &[
+            ("tree.csv", TREE.as_bytes()),
+            ("logits-f64.npy", &fixture("logits-f64.npy")),
+            ("labels-int64.npy", &fixture("labels-int64.npy")),
+        ],
+        Origin::User,
+    );
+    assert_eq!(b.node_overrides().len(), 1);
+    assert_eq!(b.stored().nodes, ids(&[("pet-bottle", 0.8)]));
+    shell.pump(&mut b);
+    assert!(b.node_overrides().is_empty(), "the tree has no pet-bottle");
 }
 
 #[test]
@@ -183,9 +229,7 @@ fn settings_stored_before_overrides_were_kept_still_load() {
 }
 
 #[test]
-fn the_profile_file_is_named_after_the_active_taxonomy() {
-    use hedgerow_board::text::LocalTime;
-    let b = loaded();
+fn the_profile_file_is_named_after_the_taxonomy_in_use() {
     let at = LocalTime {
         year: 2026,
         month: 12,
@@ -193,8 +237,11 @@ fn the_profile_file_is_named_after_the_active_taxonomy() {
         hour: 9,
         minute: 15,
     };
+    let (mut b, _) = demo_board();
     assert_eq!(
         b.profile_file_name(at),
         "taxonomy-profile-2026-12-02T0915.json"
     );
+    load_tree(&mut b);
+    assert_eq!(b.profile_file_name(at), "tree-profile-2026-12-02T0915.json");
 }

@@ -1,6 +1,11 @@
 //! Per-node threshold overrides (`Thresholds::nodes`, by column) as the page keeps and shows
-//! them: by node id across a reload or a change of taxonomy, so that they come back only on a
-//! taxonomy that has those nodes, never on whatever node holds the same column elsewhere.
+//! them: by node id across a reload or a new batch, so that they come back only on a taxonomy
+//! that has those nodes, never on whatever node holds the same column in another taxonomy.
+//!
+//! The board keeps the overrides by id beside the taxonomy they are placed on ([`NodeIds`]). A
+//! profile sets both ([`Board::adopt_nodes`]); stored settings set the ids only, to be placed
+//! on the next taxonomy the controls belong to ([`Board::place_nodes`], from `fit_depths`); a
+//! new batch's taxonomy takes the ids it has and drops the others.
 
 use std::collections::BTreeMap;
 
@@ -28,21 +33,38 @@ pub fn from_ids(tax: &Taxonomy, ids: &BTreeMap<String, f64>) -> Vec<(u32, f64)> 
     nodes
 }
 
+/// The overrides by node id, and the fingerprint of the taxonomy whose columns
+/// `Settings::thresholds.nodes` holds them in (`None`: not placed yet).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct NodeIds {
+    pub placed_on: Option<String>,
+    pub ids: BTreeMap<String, f64>,
+}
+
+impl NodeIds {
+    /// Overrides to place on the next taxonomy (from stored settings).
+    pub fn waiting(ids: BTreeMap<String, f64>) -> Self {
+        NodeIds {
+            placed_on: None,
+            ids,
+        }
+    }
+}
+
 /// One override as the page lists it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct NodeOverride {
     pub id: String,
-    /// The taxonomy's display name (empty when it has none).
+    /// The taxonomy's display name (empty when it is the id or missing).
     pub name: String,
     pub depth: usize,
     pub threshold: f64,
 }
 
 impl Board {
-    /// The per-node overrides in use, by depth then id, against the staged taxonomy (whose
-    /// columns they are).
+    /// The per-node overrides in use, by depth then id.
     pub fn node_overrides(&self) -> Vec<NodeOverride> {
-        let Some((_, tax)) = &self.taxonomy else {
+        let Some(tax) = self.controls_taxonomy() else {
             return Vec::new();
         };
         let mut out: Vec<NodeOverride> = self
@@ -69,31 +91,39 @@ impl Board {
         out
     }
 
-    /// The overrides to store, by node id: those waiting for a taxonomy if any, else those in
-    /// use.
+    /// The overrides to store, by node id.
     pub(crate) fn stored_nodes(&self) -> BTreeMap<String, f64> {
-        match (&self.pending_nodes, &self.taxonomy) {
-            (Some(ids), _) => ids.clone(),
-            (None, Some((_, tax))) => to_ids(tax, &self.settings.thresholds.nodes),
-            (None, None) => BTreeMap::new(),
-        }
+        self.node_ids
+            .as_ref()
+            .map(|n| n.ids.clone())
+            .unwrap_or_default()
     }
 
-    /// Remember the overrides by id before the staged taxonomy is replaced (unless some are
-    /// already waiting), so [`Board::resolve_nodes`] can place them on the new one.
-    pub(crate) fn hold_nodes(&mut self) {
-        if self.pending_nodes.is_none() {
-            if let Some((_, tax)) = &self.taxonomy {
-                self.pending_nodes = Some(to_ids(tax, &self.settings.thresholds.nodes));
-            }
-        }
+    /// The settings' overrides were just set for `tax` (a profile): keep them by id.
+    pub(crate) fn adopt_nodes(&mut self, tax: &Taxonomy) {
+        self.node_ids = Some(NodeIds {
+            placed_on: Some(tax.fingerprint().to_string()),
+            ids: to_ids(tax, &self.settings.thresholds.nodes),
+        });
     }
 
-    /// Place the waiting overrides on the staged taxonomy, if there is one.
-    pub(crate) fn resolve_nodes(&mut self) {
-        if let (Some(ids), Some((_, tax))) = (&self.pending_nodes, &self.taxonomy) {
-            self.settings.thresholds.nodes = from_ids(tax, ids);
-            self.pending_nodes = None;
+    /// Put the overrides on the taxonomy the controls belong to, when they are not on it yet
+    /// (stored settings, or a new batch): the ids it has, in its columns; the others go.
+    pub(crate) fn place_nodes(&mut self) {
+        let Some(tax) = self.controls_taxonomy() else {
+            return;
+        };
+        let Some(n) = &self.node_ids else {
+            return;
+        };
+        if n.placed_on.as_deref() == Some(tax.fingerprint()) {
+            return;
         }
+        let nodes = from_ids(&tax, &n.ids);
+        self.node_ids = Some(NodeIds {
+            placed_on: Some(tax.fingerprint().to_string()),
+            ids: to_ids(&tax, &nodes),
+        });
+        self.settings.thresholds.nodes = nodes;
     }
 }

@@ -3,7 +3,7 @@
 //! marks. Nothing here panics; errors come back as text for the page's error area.
 
 use hedgerow_board::state::Stored;
-use hedgerow_board::text::LocalTime;
+use hedgerow_board::wording::LocalTime;
 use js_sys::{Array, Promise, Uint8Array};
 use wasm_bindgen::prelude::*;
 use wasm_bindgen::JsCast;
@@ -19,11 +19,6 @@ pub fn js_error(e: &JsValue) -> String {
         return String::from(err.message());
     }
     e.as_string().unwrap_or_else(|| format!("{e:?}"))
-}
-
-/// The bytes `start..end` of a blob (a chosen file), read without reading the rest.
-pub async fn read_range(blob: &Blob, start: u64, end: u64) -> Result<Vec<u8>, String> {
-    finish_read(start_read(blob, start, end)?).await
 }
 
 /// Start reading the bytes `start..end` of a blob: the browser reads them while the page goes

@@ -3,7 +3,7 @@
 
 use hedgerow_board::overrides::NodeOverride;
 use hedgerow_board::state::Action;
-use hedgerow_board::text::{depths_differ, stop_at_root, stop_help, stop_here};
+use hedgerow_board::wording::{depths_differ, stop_at_root, stop_help, stop_here};
 use hedgerow_core::{Rule, Settings};
 use web_sys::HtmlSelectElement;
 use yew::prelude::*;

@@ -2,7 +2,7 @@
 //! name and threshold, which replaces its depth's for that node.
 
 use hedgerow_board::overrides::NodeOverride;
-use hedgerow_board::text::show_threshold;
+use hedgerow_board::wording::show_threshold;
 use yew::prelude::*;
 
 #[derive(Properties, PartialEq)]

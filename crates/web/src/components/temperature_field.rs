@@ -1,9 +1,9 @@
 //! One depth's softmax temperature: a text field applied on commit (a change re-reads the
 //! logits), which must be a positive finite number; anything else is not applied and says why
-//! beside the field until the next valid entry (`hedgerow_board::text::read_temperature`).
+//! beside the field until the next valid entry (`hedgerow_board::wording::read_temperature`).
 
 use hedgerow_board::state::Action;
-use hedgerow_board::text::{read_temperature, Typed};
+use hedgerow_board::wording::{read_temperature, Typed};
 use web_sys::HtmlInputElement;
 use yew::prelude::*;
 

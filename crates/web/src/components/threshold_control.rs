@@ -1,7 +1,7 @@
 //! One threshold in [0, 1]: a range slider for moving it and an exact text field. Both are
 //! native inputs (keyboard-operable). The field takes `input` (while typing) and `change` (on
 //! commit); an entry outside [0, 1] or not a number is not applied and says why beside the
-//! field until the next valid entry (`hedgerow_board::text::read_threshold`), and the value in
+//! field until the next valid entry (`hedgerow_board::wording::read_threshold`), and the value in
 //! use stays what it was before the edit.
 //!
 //! The field is a text field (`inputmode="decimal"`), not `type="number"`, so that what was
@@ -10,7 +10,7 @@
 
 use std::cell::Cell;
 
-use hedgerow_board::text::{read_threshold, show_threshold, Typed};
+use hedgerow_board::wording::{read_threshold, show_threshold, Typed};
 use web_sys::HtmlInputElement;
 use yew::prelude::*;
 

@@ -193,7 +193,7 @@ impl Board {
             .active
             .as_ref()
             .and_then(|a| a.names.get(&Slot::Taxonomy).cloned())
-            .or_else(|| self.taxonomy.as_ref().map(|(n, _)| n.clone()))
+            .or_else(|| self.taxonomy.as_ref().map(|t| t.name.clone()))
             .unwrap_or_default();
         profile_file_name(&taxonomy, at)
     }
