@@ -48,7 +48,6 @@ pub struct ThresholdControlProps {
 }
 
 /// The control's memory between events (cells: events read and write them without a render).
-#[derive(Default)]
 struct Edit {
     /// The value in use as last rendered (NaN when mixed).
     current: Cell<f64>,
@@ -60,6 +59,14 @@ struct Edit {
 }
 
 impl Edit {
+    fn new() -> Self {
+        Edit {
+            current: Cell::new(f64::NAN),
+            sent: Cell::new(f64::NAN),
+            start: Cell::new(None),
+        }
+    }
+
     /// Send `v` up unless it is the value in use.
     fn send(&self, on_set: &Callback<f64>, v: f64) {
         if v.is_finite() && self.current.get() != v {
@@ -72,7 +79,7 @@ impl Edit {
 
 #[function_component(ThresholdControl)]
 pub fn threshold_control(props: &ThresholdControlProps) -> Html {
-    let edit = use_mut_ref(Edit::default);
+    let edit = use_mut_ref(Edit::new);
     edit.borrow()
         .current
         .set(if props.mixed { f64::NAN } else { props.value });
