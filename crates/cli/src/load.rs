@@ -31,13 +31,13 @@ pub struct Loaded {
 }
 
 /// Bytes per read of the logits file: rows are decoded chunk by chunk and the chunk dropped.
-const CHUNK: usize = 1 << 20;
+pub(crate) const CHUNK: usize = 1 << 20;
 
-fn display(path: &Path) -> String {
+pub(crate) fn display(path: &Path) -> String {
     path.display().to_string()
 }
 
-fn read(path: &Path) -> Result<Vec<u8>, Failure> {
+pub(crate) fn read(path: &Path) -> Result<Vec<u8>, Failure> {
     std::fs::read(path)
         .map_err(|e| Failure::Input(vec![format!("{}: cannot read: {e}", display(path))]))
 }
@@ -122,7 +122,7 @@ impl Loaded {
 }
 
 /// The value, or its problems noted so every input's problems are reported together.
-fn keep<T>(problems: &mut Vec<String>, r: hedgerow_core::Result<T>) -> Option<T> {
+pub(crate) fn keep<T>(problems: &mut Vec<String>, r: hedgerow_core::Result<T>) -> Option<T> {
     match r {
         Ok(v) => Some(v),
         Err(e) => {
@@ -132,7 +132,7 @@ fn keep<T>(problems: &mut Vec<String>, r: hedgerow_core::Result<T>) -> Option<T>
     }
 }
 
-fn input_error(name: &str, kind: ErrorKind) -> Failure {
+pub(crate) fn input_error(name: &str, kind: ErrorKind) -> Failure {
     Failure::from(Errors::from(hedgerow_core::Error::new(
         name,
         Location::default(),
@@ -141,15 +141,15 @@ fn input_error(name: &str, kind: ErrorKind) -> Failure {
 }
 
 /// An `.npz` bundle given as `--logits`: its directory, read from the end of the file.
-struct Bundle {
-    path: PathBuf,
-    name: String,
+pub(crate) struct Bundle {
+    pub(crate) path: PathBuf,
+    pub(crate) name: String,
     members: Vec<npz::Member>,
 }
 
 impl Bundle {
     /// `Some` if the file is a zip archive (np.savez writes `PK\x03\x04` first).
-    fn open(path: &Path, name: &str) -> Result<Option<Self>, Failure> {
+    pub(crate) fn open(path: &Path, name: &str) -> Result<Option<Self>, Failure> {
         let cannot = |e: std::io::Error| Failure::Input(vec![format!("{name}: cannot read: {e}")]);
         let mut file = File::open(path).map_err(cannot)?;
         let mut magic = [0u8; 4];
@@ -170,7 +170,7 @@ impl Bundle {
         }))
     }
 
-    fn keys(&self) -> String {
+    pub(crate) fn keys(&self) -> String {
         self.members
             .iter()
             .map(|m| format!("`{}`", m.key()))
@@ -178,19 +178,19 @@ impl Bundle {
             .join(", ")
     }
 
-    fn member(&self, key: &str) -> Option<&npz::Member> {
+    pub(crate) fn member(&self, key: &str) -> Option<&npz::Member> {
         self.members.iter().find(|m| m.key() == key)
     }
 
     /// Where a member's compressed data starts.
-    fn data_start(&self, file: &mut File, m: &npz::Member) -> Result<u64, Failure> {
+    pub(crate) fn data_start(&self, file: &mut File, m: &npz::Member) -> Result<u64, Failure> {
         let local = read_at(file, m.local_header, npz::LOCAL_HEADER_BYTES)
             .map_err(|e| Failure::Input(vec![format!("{}: cannot read: {e}", self.name)]))?;
         npz::data_offset(m, &local).map_err(|k| input_error(&self.name, k))
     }
 
     /// A small member read whole: `(display name, bytes)`.
-    fn member_bytes(&self, key: &str) -> Result<Option<(String, Vec<u8>)>, Failure> {
+    pub(crate) fn member_bytes(&self, key: &str) -> Result<Option<(String, Vec<u8>)>, Failure> {
         let Some(m) = self.member(key) else {
             return Ok(None);
         };
@@ -257,7 +257,7 @@ impl Bundle {
     }
 }
 
-fn read_at(file: &mut File, offset: u64, len: u64) -> std::io::Result<Vec<u8>> {
+pub(crate) fn read_at(file: &mut File, offset: u64, len: u64) -> std::io::Result<Vec<u8>> {
     file.seek(SeekFrom::Start(offset))?;
     let mut out = Vec::new();
     file.take(len).read_to_end(&mut out)?;
@@ -290,7 +290,7 @@ fn stream_logits(
 }
 
 /// Settings from the profile (if any), overridden by explicit flags.
-fn settings(tax: &Taxonomy, args: &SettingArgs) -> Result<(Settings, Temperatures), Failure> {
+pub(crate) fn settings(tax: &Taxonomy, args: &SettingArgs) -> Result<(Settings, Temperatures), Failure> {
     let (mut settings, mut temps) = match &args.profile {
         Some(path) => {
             let profile = Profile::from_json(&read(path)?, &display(path), tax)?;
