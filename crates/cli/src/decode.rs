@@ -4,9 +4,11 @@
 
 mod rows;
 
+use std::cell::Cell;
 use std::fs::File;
 use std::io::{self, Read, Seek, SeekFrom, Write};
 use std::path::{Path, PathBuf};
+use std::rc::Rc;
 
 use hedgerow_core::{
     npz, Decoder, Error, ErrorKind, Errors, Labels, Location, LogitsReader, Objectness, Paths,
@@ -228,8 +230,9 @@ enum Out<'a> {
         format: Format,
     },
     Open {
-        writer: RowWriter<'a, Box<dyn Write>>,
+        writer: RowWriter<'a, Gate>,
         path: Option<&'a PathBuf>,
+        shut: Rc<Cell<bool>>,
     },
     Done,
 }
@@ -284,7 +287,7 @@ impl<'a> Session<'a> {
         // The rows of a Fortran-order array arrive only now; otherwise there are none left.
         self.write(first, &rest.paths)?;
         match std::mem::replace(&mut self.out, Out::Done) {
-            Out::Open { writer, path } => writer.finish().map_err(|e| write_error(path, e)),
+            Out::Open { writer, path, .. } => writer.finish().map_err(|e| write_error(path, e)),
             _ => Ok(()),
         }
     }
@@ -337,14 +340,19 @@ impl<'a> Session<'a> {
             Some(p) => Box::new(File::create(p).map_err(|e| write_error(Some(p), e))?),
             None => Box::new(io::stdout().lock()),
         };
-        let writer = RowWriter::new(self.decoder.tax, format, self.labels.is_some(), target)
+        let shut = Rc::new(Cell::new(false));
+        let gate = Gate {
+            inner: target,
+            shut: Rc::clone(&shut),
+        };
+        let writer = RowWriter::new(self.decoder.tax, format, self.labels.is_some(), gate)
             .map_err(|e| write_error(path, e))?;
-        self.out = Out::Open { writer, path };
+        self.out = Out::Open { writer, path, shut };
         Ok(())
     }
 
     fn write(&mut self, first: u64, paths: &Paths) -> Result<(), Halt> {
-        let Out::Open { writer, path } = &mut self.out else {
+        let Out::Open { writer, path, .. } = &mut self.out else {
             return Ok(());
         };
         for i in 0..paths.len() {
@@ -359,7 +367,11 @@ impl<'a> Session<'a> {
                 .decoder
                 .decide(p_root, leaf, paths.cond(i), &mut self.path);
             let label = self.labels.map(|l| {
-                let g = l.nodes.get(at).copied().unwrap_or(hedgerow_core::taxonomy::NONE);
+                let g = l
+                    .nodes
+                    .get(at)
+                    .copied()
+                    .unwrap_or(hedgerow_core::taxonomy::NONE);
                 (g, self.decoder.outcome(&decision, leaf, g))
             });
             let row = Row {
@@ -373,21 +385,45 @@ impl<'a> Session<'a> {
         Ok(())
     }
 
-    /// After a failure: a partly written `--out` file is removed, so no file looks complete.
+    /// After a failure: what is still buffered is dropped, and a partly written `--out` file
+    /// is removed, so no output looks complete.
     fn discard_output(&mut self) {
-        if let Out::Open {
-            path: Some(path), ..
-        } = std::mem::replace(&mut self.out, Out::Done)
-        {
-            if std::fs::metadata(path).is_ok_and(|m| m.is_file()) {
-                let _ = std::fs::remove_file(path);
+        if let Out::Open { path, shut, .. } = std::mem::replace(&mut self.out, Out::Done) {
+            shut.set(true);
+            if let Some(path) = path {
+                if std::fs::metadata(path).is_ok_and(|m| m.is_file()) {
+                    let _ = std::fs::remove_file(path);
+                }
             }
         }
     }
 }
 
+/// The output behind the row writer's buffer; once `shut`, writes are dropped.
+struct Gate {
+    inner: Box<dyn Write>,
+    shut: Rc<Cell<bool>>,
+}
+
+impl Write for Gate {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        if self.shut.get() {
+            return Ok(buf.len());
+        }
+        self.inner.write(buf)
+    }
+    fn flush(&mut self) -> io::Result<()> {
+        if self.shut.get() {
+            return Ok(());
+        }
+        self.inner.flush()
+    }
+}
+
 fn lost() -> Halt {
-    Halt::Fail(Failure::Other(anyhow::anyhow!("the logits reader was already finished")))
+    Halt::Fail(Failure::Other(anyhow::anyhow!(
+        "the logits reader was already finished"
+    )))
 }
 
 /// A closed pipe ends the run quietly; any other write error is reported.
@@ -395,7 +431,10 @@ fn write_error(path: Option<&PathBuf>, e: io::Error) -> Halt {
     if e.kind() == io::ErrorKind::BrokenPipe && path.is_none() {
         return Halt::Closed;
     }
-    let to = path.map_or_else(|| "standard output".to_string(), |p| p.display().to_string());
+    let to = path.map_or_else(
+        || "standard output".to_string(),
+        |p| p.display().to_string(),
+    );
     Halt::Fail(Failure::Other(anyhow::anyhow!("cannot write to {to}: {e}")))
 }
 

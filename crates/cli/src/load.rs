@@ -290,7 +290,10 @@ fn stream_logits(
 }
 
 /// Settings from the profile (if any), overridden by explicit flags.
-pub(crate) fn settings(tax: &Taxonomy, args: &SettingArgs) -> Result<(Settings, Temperatures), Failure> {
+pub(crate) fn settings(
+    tax: &Taxonomy,
+    args: &SettingArgs,
+) -> Result<(Settings, Temperatures), Failure> {
     let (mut settings, mut temps) = match &args.profile {
         Some(path) => {
             let profile = Profile::from_json(&read(path)?, &display(path), tax)?;

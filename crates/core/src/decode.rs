@@ -181,7 +181,10 @@ mod tests {
         };
         // P(x) = 0.8 · 1 ≥ 0.9 fails: stop at the root.
         let d = cumulative.decide(0.8, w, &cond, &mut path);
-        assert_eq!((d.predicted, d.depth, d.probability), (Some(tax.root()), 0, 0.8));
+        assert_eq!(
+            (d.predicted, d.depth, d.probability),
+            (Some(tax.root()), 0, 0.8)
+        );
         assert_eq!(path.len(), 3);
         assert_eq!(path[1].cumulative, 0.8 * 0.75);
         // P(root) under t_0: abstain, the path is still given.

@@ -428,7 +428,12 @@ pub fn decode_row(
     };
     let paths = batch.paths();
     let mut path = Vec::new();
-    let d = decoder.decide(batch.root_probability(r), paths.leaf(r), paths.cond(r), &mut path);
+    let d = decoder.decide(
+        batch.root_probability(r),
+        paths.leaf(r),
+        paths.cond(r),
+        &mut path,
+    );
     let outcome = match d.predicted {
         None if batch.label(r) == NONE => Outcome::Rejected,
         None => Outcome::Abstained,

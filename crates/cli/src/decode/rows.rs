@@ -123,6 +123,8 @@ fn csv_row<W: Write>(
     labelled: bool,
     row: &Row,
 ) -> csv::Result<()> {
+    // Numbers as `{}` prints them, as before decode streamed: the shortest digits that read
+    // back to the same value, never an exponent.
     let mut number = |csv: &mut csv::Writer<W>, v: &dyn std::fmt::Display| {
         text.clear();
         let _ = write!(text, "{v}");
@@ -161,6 +163,14 @@ fn csv_row<W: Write>(
     Ok(())
 }
 
+/// The I/O error inside a CSV error, so a closed pipe is still recognised as one.
+fn io_error(e: csv::Error) -> io::Error {
+    match e.into_kind() {
+        csv::ErrorKind::Io(e) => e,
+        other => io::Error::other(format!("{other:?}")),
+    }
+}
+
 /// The path as an array of steps, serialised without building it first.
 struct JsonPath<'a> {
     tax: &'a Taxonomy,
@@ -187,14 +197,6 @@ struct JsonStep<'a> {
     id: &'a str,
     conditional: f64,
     cumulative: f64,
-}
-
-/// The I/O error inside a CSV error, so a closed pipe is still recognised as one.
-fn io_error(e: csv::Error) -> io::Error {
-    match e.into_kind() {
-        csv::ErrorKind::Io(e) => e,
-        other => io::Error::other(format!("{other:?}")),
-    }
 }
 
 #[derive(Serialize)]
