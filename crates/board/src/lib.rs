@@ -3,4 +3,5 @@
 //! generic over the plotters backend (`charts`), so native tests render them to SVG.
 
 pub mod charts;
+pub mod loading;
 pub mod state;

@@ -6,19 +6,19 @@ mod rows;
 
 use std::cell::Cell;
 use std::fs::File;
-use std::io::{self, Read, Seek, SeekFrom, Write};
-use std::path::{Path, PathBuf};
+use std::io::{self, Write};
+use std::path::PathBuf;
 use std::rc::Rc;
 
+use hedgerow_core::intake::{self, Kind};
 use hedgerow_core::{
-    npz, Decoder, Error, ErrorKind, Errors, Labels, Location, LogitsReader, Objectness, Paths,
-    Profile, Step, Taxonomy,
+    Decoder, Errors, Labels, Objectness, Paths, Profile, Step, Taxonomy, Temperatures,
 };
 
 pub use rows::Format;
 use rows::{Row, RowWriter};
 
-use crate::load::{self, display, input_error, keep, read, Bundle, Failure, CHUNK};
+use crate::load::{self, display, keep, one, read, Failure, Sources};
 use crate::{Input, SettingArgs};
 
 /// What `hedgerow decode` was asked for, beside the inputs and settings.
@@ -33,7 +33,10 @@ pub struct Request<'a> {
 
 pub fn run(req: &Request) -> Result<(), Failure> {
     let input = req.input;
-    let tax = Taxonomy::parse(&read(&input.taxonomy)?, &display(&input.taxonomy))?;
+    let tax_name = display(&input.taxonomy);
+    let tax_bytes = read(&input.taxonomy)?;
+    intake::given_as(&tax_name, &tax_bytes, Kind::Taxonomy).map_err(one)?;
+    let tax = Taxonomy::parse(&tax_bytes, &tax_name)?;
     let (settings, temps) = load::settings(&tax, req.settings)?;
     let profile = match &req.settings.profile {
         Some(path) => Some((
@@ -42,65 +45,43 @@ pub fn run(req: &Request) -> Result<(), Failure> {
         )),
         None => None,
     };
-    let logits_name = display(&input.logits);
-    let bundle = Bundle::open(&input.logits, &logits_name)?;
+    let sources = Sources::open(input)?;
 
     let mut problems = Vec::new();
-    let labels = match (&input.labels, &bundle) {
-        (Some(path), _) => keep(
+    let labels = sources.labels.as_ref().and_then(|small| {
+        keep(
             &mut problems,
-            Labels::parse(&read(path)?, &display(path), &tax),
-        ),
-        (None, Some(b)) => match b.member_bytes("labels")? {
-            Some((name, bytes)) => keep(&mut problems, Labels::parse(&bytes, &name, &tax)),
-            None => None,
-        },
-        (None, None) => None,
+            Labels::parse(&small.bytes, &small.name, &tax),
+        )
+    });
+    let objectness = match &sources.objectness {
+        Some(small) if !req.no_objectness => {
+            keep(&mut problems, Objectness::parse(&small.bytes, &small.name))
+        }
+        _ => None,
     };
-    let objectness = match (&input.objectness, &bundle) {
-        _ if req.no_objectness => None,
-        (Some(path), _) => keep(
-            &mut problems,
-            Objectness::parse(&read(path)?, &display(path)),
-        ),
-        (None, Some(b)) => match b.member_bytes("objectness")? {
-            Some((name, bytes)) => keep(&mut problems, Objectness::parse(&bytes, &name)),
-            None => None,
-        },
-        (None, None) => None,
-    };
-    let objectness_given = input.objectness.is_some()
-        || bundle
-            .as_ref()
-            .is_some_and(|b| b.member("objectness").is_some());
     if let Some((name, p)) = &profile {
-        if p.objectness == Some(true) && !objectness_given && !req.no_objectness {
+        if p.objectness == Some(true) && sources.objectness.is_none() && !req.no_objectness {
             problems.push(format!(
                 "{name}: this profile was scored with objectness (object threshold {}): expected \
-                 --objectness FILE (or an `objectness` array in {logits_name}); pass \
-                 --no-objectness to decode with P(root) = 1 and no object threshold",
-                settings.thresholds.object
+                 --objectness FILE (or an `objectness` array in {}); pass --no-objectness to \
+                 decode with P(root) = 1 and no object threshold",
+                settings.thresholds.object, sources.logits.name
             ));
         }
     }
 
     let thresholds = settings.thresholds.resolve(&tax);
-    let decoder = Decoder {
-        tax: &tax,
-        rule: settings.rule,
-        thresholds: &thresholds,
-        objectness: objectness.is_some(),
-    };
-    let mut source = match &bundle {
-        Some(b) => Source::member(b)?,
-        None => Source::plain(&input.logits, &logits_name)?,
-    };
     let mut session = Session {
-        decoder,
+        decoder: Decoder {
+            tax: &tax,
+            rule: settings.rule,
+            thresholds: &thresholds,
+            objectness: objectness.is_some(),
+        },
         labels: labels.as_ref(),
         objectness: objectness.as_ref(),
-        logits_name: &logits_name,
-        reader: Some(LogitsReader::new(source.name(), &tax, &temps)),
+        logits_name: &sources.logits.name,
         problems,
         out: Out::Pending {
             path: req.out,
@@ -108,119 +89,14 @@ pub fn run(req: &Request) -> Result<(), Failure> {
         },
         path: Vec::new(),
     };
-    let outcome = session.stream(&mut source);
-    match outcome {
+    match session.stream(&sources, &temps) {
         Ok(()) => Ok(()),
-        Err(Halt::Closed) => Ok(()),
-        Err(Halt::Fail(f)) => {
+        Err(Failure::Other(e)) if e.is::<Closed>() => Ok(()),
+        Err(f) => {
             session.discard_output();
             Err(f)
         }
     }
-}
-
-/// Why streaming stopped early.
-enum Halt {
-    /// The reader of standard output went away (`| head`): stop quietly.
-    Closed,
-    Fail(Failure),
-}
-
-impl From<Failure> for Halt {
-    fn from(f: Failure) -> Self {
-        Halt::Fail(f)
-    }
-}
-
-/// Where the logits bytes come from: a plain `.npy`, or a bundle's `logits` member.
-enum Source {
-    Plain {
-        file: File,
-        name: String,
-    },
-    Member {
-        file: File,
-        name: String,
-        left: u64,
-        flow: Box<npz::Inflow>,
-    },
-}
-
-impl Source {
-    fn plain(path: &Path, name: &str) -> Result<Self, Failure> {
-        let file = File::open(path).map_err(|e| cannot_read(name, e))?;
-        Ok(Source::Plain {
-            file,
-            name: name.to_string(),
-        })
-    }
-
-    fn member(b: &Bundle) -> Result<Self, Failure> {
-        let Some(m) = b.member("logits") else {
-            return Err(Failure::Input(vec![format!(
-                "{}: expected a `logits` array in the bundle, found {}",
-                b.name,
-                b.keys()
-            )]));
-        };
-        let name = format!("{}:logits", b.name);
-        let mut file = File::open(&b.path).map_err(|e| cannot_read(&b.name, e))?;
-        let start = b.data_start(&mut file, m)?;
-        file.seek(SeekFrom::Start(start))
-            .map_err(|e| cannot_read(&b.name, e))?;
-        let flow = npz::Inflow::new(m).map_err(|k| input_error(&name, k))?;
-        Ok(Source::Member {
-            file,
-            name,
-            left: m.compressed,
-            flow: Box::new(flow),
-        })
-    }
-
-    /// The name errors in the logits carry (`bundle.npz:logits` for a member).
-    fn name(&self) -> &str {
-        match self {
-            Source::Plain { name, .. } | Source::Member { name, .. } => name,
-        }
-    }
-
-    /// Hand the logits bytes to `sink` chunk by chunk until they end.
-    fn pump(&mut self, sink: &mut impl FnMut(&[u8]) -> Result<(), Halt>) -> Result<(), Halt> {
-        let mut buf = vec![0u8; CHUNK];
-        match self {
-            Source::Plain { file, name } => loop {
-                let n = file.read(&mut buf).map_err(|e| cannot_read(name, e))?;
-                if n == 0 {
-                    return Ok(());
-                }
-                sink(&buf[..n])?;
-            },
-            Source::Member {
-                file,
-                name,
-                left,
-                flow,
-            } => {
-                let wrap = |k| Halt::Fail(input_error(name, k));
-                while *left > 0 {
-                    let want = usize::try_from(*left).unwrap_or(CHUNK).min(CHUNK);
-                    let n = file
-                        .read(&mut buf[..want])
-                        .map_err(|e| cannot_read(name, e))?;
-                    if n == 0 {
-                        break;
-                    }
-                    *left -= n as u64;
-                    flow.feed(&buf[..n], sink, wrap)?;
-                }
-                flow.finish().map_err(wrap)
-            }
-        }
-    }
-}
-
-fn cannot_read(name: &str, e: io::Error) -> Failure {
-    Failure::Input(vec![format!("{name}: cannot read: {e}")])
 }
 
 /// The output: not opened until the inputs have been checked, so bad input writes nothing.
@@ -237,14 +113,12 @@ enum Out<'a> {
     Done,
 }
 
-/// One decode run: the reader the logits stream through and where the rows go.
+/// One decode run: where the rows go, and what each row is decoded with.
 struct Session<'a> {
     decoder: Decoder<'a>,
     labels: Option<&'a Labels>,
     objectness: Option<&'a Objectness>,
     logits_name: &'a str,
-    /// `None` once finished.
-    reader: Option<LogitsReader>,
     /// Problems found before the logits header was read; reported with the header's.
     problems: Vec<String>,
     out: Out<'a>,
@@ -253,20 +127,15 @@ struct Session<'a> {
 }
 
 impl<'a> Session<'a> {
-    fn stream(&mut self, source: &mut Source) -> Result<(), Halt> {
+    fn stream(&mut self, sources: &Sources, temps: &Temperatures) -> Result<(), Failure> {
         let tax = self.decoder.tax;
-        source.pump(&mut |chunk| {
-            let reader = self.reader.as_mut().ok_or_else(lost)?;
-            if let Err(e) = reader.feed(tax, chunk) {
-                return Err(self.input_problems(e));
-            }
+        let streamed = sources.logits.stream(tax, temps, |reader| {
             if matches!(self.out, Out::Pending { .. }) {
-                if reader.header().is_none() {
+                let Some(rows) = reader.header().and_then(|h| h.shape.first().copied()) else {
                     return Ok(());
-                }
-                self.open()?;
+                };
+                self.open(rows)?;
             }
-            let reader = self.reader.as_mut().ok_or_else(lost)?;
             let (first, paths) = reader.take_paths();
             // After a NaN or ±inf no more rows are written: the rest of the file is only read
             // to report every problem.
@@ -275,16 +144,16 @@ impl<'a> Session<'a> {
             }
             self.write(first, &paths)
         })?;
-        let mut reader = self.reader.take().ok_or_else(lost)?;
-        let (first, _) = reader.take_paths();
-        let rest = match reader.finish(tax) {
+        let rest = match streamed {
             Ok(rest) => rest,
             Err(e) => return Err(self.input_problems(e)),
         };
+        let rows = rest.header.shape.first().copied().unwrap_or(0);
         if matches!(self.out, Out::Pending { .. }) {
-            self.open()?;
+            self.open(rows)?;
         }
         // The rows of a Fortran-order array arrive only now; otherwise there are none left.
+        let first = rows.saturating_sub(rest.paths.len() as u64);
         self.write(first, &rest.paths)?;
         match std::mem::replace(&mut self.out, Out::Done) {
             Out::Open { writer, path, .. } => writer.finish().map_err(|e| write_error(path, e)),
@@ -293,45 +162,25 @@ impl<'a> Session<'a> {
     }
 
     /// The logits' problems, after those of the other inputs.
-    fn input_problems(&mut self, e: Errors) -> Halt {
+    fn input_problems(&mut self, e: Errors) -> Failure {
         let mut all = std::mem::take(&mut self.problems);
         all.extend(e.iter().map(|e| e.to_string()));
-        Halt::Fail(Failure::Input(all))
+        Failure::Input(all)
     }
 
-    /// Check the rows of labels and objectness against the logits header, then open the output.
-    fn open(&mut self) -> Result<(), Halt> {
-        let rows = self
-            .reader
-            .as_ref()
-            .and_then(|r| r.header())
-            .and_then(|h| h.shape.first().copied())
-            .unwrap_or(0);
-        let mut problems = std::mem::take(&mut self.problems);
-        let mut check = |file: &str, found: usize| {
-            if found as u64 != rows {
-                problems.push(
-                    Error::new(
-                        file,
-                        Location::default(),
-                        ErrorKind::RowCount {
-                            found: found as u64,
-                            other: self.logits_name.to_string(),
-                            expected: rows,
-                        },
-                    )
-                    .to_string(),
-                );
-            }
-        };
+    /// Check the rows of labels and objectness against the logits' `rows`, then open the
+    /// output.
+    fn open(&mut self, rows: u64) -> Result<(), Failure> {
+        let mut others = Vec::new();
         if let Some(l) = self.labels {
-            check(&l.file, l.nodes.len());
+            others.push((l.file.as_str(), l.nodes.len() as u64));
         }
         if let Some(o) = self.objectness {
-            check(&o.file, o.values.len());
+            others.push((o.file.as_str(), o.values.len() as u64));
         }
-        if !problems.is_empty() {
-            return Err(Halt::Fail(Failure::Input(problems)));
+        let mismatched = intake::row_errors(self.logits_name, rows, &others);
+        if !self.problems.is_empty() || !mismatched.is_empty() {
+            return Err(self.input_problems(Errors(mismatched)));
         }
         let Out::Pending { path, format } = self.out else {
             return Ok(());
@@ -351,7 +200,7 @@ impl<'a> Session<'a> {
         Ok(())
     }
 
-    fn write(&mut self, first: u64, paths: &Paths) -> Result<(), Halt> {
+    fn write(&mut self, first: u64, paths: &Paths) -> Result<(), Failure> {
         let Out::Open { writer, path, .. } = &mut self.out else {
             return Ok(());
         };
@@ -420,26 +269,26 @@ impl Write for Gate {
     }
 }
 
-fn lost() -> Halt {
-    Halt::Fail(Failure::Other(anyhow::anyhow!(
-        "the logits reader was already finished"
-    )))
+/// The reader of standard output went away (`hedgerow decode … | head`): the run ends quietly.
+#[derive(Debug)]
+struct Closed;
+
+impl std::fmt::Display for Closed {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str("standard output was closed")
+    }
 }
 
-/// A closed pipe ends the run quietly; any other write error is reported.
-fn write_error(path: Option<&PathBuf>, e: io::Error) -> Halt {
+impl std::error::Error for Closed {}
+
+/// A write error as a failure; a closed pipe is [`Closed`].
+fn write_error(path: Option<&PathBuf>, e: io::Error) -> Failure {
     if e.kind() == io::ErrorKind::BrokenPipe && path.is_none() {
-        return Halt::Closed;
+        return Failure::Other(anyhow::Error::new(Closed));
     }
     let to = path.map_or_else(
         || "standard output".to_string(),
         |p| p.display().to_string(),
     );
-    Halt::Fail(Failure::Other(anyhow::anyhow!("cannot write to {to}: {e}")))
-}
-
-impl From<Errors> for Halt {
-    fn from(e: Errors) -> Self {
-        Halt::Fail(Failure::from(e))
-    }
+    Failure::Other(anyhow::anyhow!("cannot write to {to}: {e}"))
 }

@@ -141,6 +141,8 @@ pub enum ErrorKind {
         found: String,
         found_nodes: usize,
     },
+    #[error("expected a `logits` array in the bundle, found {found}")]
+    NoLogitsMember { found: String },
     #[error("{0} more problems not shown")]
     More(u64),
 }

@@ -40,11 +40,13 @@ pub mod decode;
 pub mod drag;
 pub mod error;
 pub mod eval;
+pub mod intake;
 pub mod npy;
 pub mod npz;
 pub mod paths;
 pub mod profile;
 pub mod settings;
+pub mod stats;
 pub mod taxonomy;
 
 pub use batch::{Batch, Labels, Objectness};

@@ -20,11 +20,6 @@ pub fn js_error(e: &JsValue) -> String {
     e.as_string().unwrap_or_else(|| format!("{e:?}"))
 }
 
-/// The bytes `start..end` of a blob (a chosen file), read without reading the rest.
-pub async fn read_range(blob: &Blob, start: u64, end: u64) -> Result<Vec<u8>, String> {
-    finish_read(start_read(blob, start, end)?).await
-}
-
 /// Start reading the bytes `start..end` of a blob: the browser reads them while the page goes
 /// on; [`finish_read`] waits for them.
 pub fn start_read(blob: &Blob, start: u64, end: u64) -> Result<JsFuture, String> {

@@ -92,10 +92,20 @@ pub fn app() -> Html {
 
     let depth = board.depth();
     let errors: Vec<String> = board.errors.values().flatten().cloned().collect();
-    let active_names = board.active.as_ref().map(|a| a.names.clone());
+    let active_names = board.active.as_ref().map(|a| (a.names.clone(), a.origin));
     let kept = active_names
         .as_ref()
-        .map(|n| AttrValue::from(n.values().cloned().collect::<Vec<_>>().join(", ")));
+        .map(|(n, _)| AttrValue::from(n.values().cloned().collect::<Vec<_>>().join(", ")));
+    let filled: Vec<Slot> = [
+        (Slot::Taxonomy, board.taxonomy.is_some()),
+        (Slot::Logits, board.logits.is_some()),
+        (Slot::Labels, board.labels.is_some()),
+        (Slot::Objectness, board.objectness.is_some()),
+    ]
+    .into_iter()
+    .filter_map(|(s, f)| f.then_some(s))
+    .collect();
+    let on_remove = use_callback(loader.clone(), |slot, loader| loader.remove(slot));
     let has_objectness = board
         .active
         .as_ref()
@@ -143,7 +153,9 @@ pub fn app() -> Html {
                     </section>
                 </div>
             </div>
-            <FilesPanel notes={board.notes.clone()} errors={board.errors.clone()} active={active_names} last_read_ms={loader.last_read_ms()} />
+            <FilesPanel notes={board.notes.clone()} errors={board.errors.clone()} set_aside={board.set_aside.clone()}
+                filled={filled} active={active_names} staging={board.staging_line()}
+                last_read_ms={loader.last_read_ms()} on_remove={on_remove} />
             <footer class="foot">
                 { "Everything runs in this page: files are read locally and nothing is sent anywhere. The scores come from the same engine as the " }
                 <code>{ "hedgerow" }</code>{ " command line." }
