@@ -106,7 +106,7 @@ enum Out<'a> {
         format: Format,
     },
     Open {
-        writer: RowWriter<'a, Gate>,
+        writer: Box<RowWriter<'a, Gate>>,
         path: Option<&'a PathBuf>,
         shut: Rc<Cell<bool>>,
     },
@@ -196,7 +196,11 @@ impl<'a> Session<'a> {
         };
         let writer = RowWriter::new(self.decoder.tax, format, self.labels.is_some(), gate)
             .map_err(|e| write_error(path, e))?;
-        self.out = Out::Open { writer, path, shut };
+        self.out = Out::Open {
+            writer: Box::new(writer),
+            path,
+            shut,
+        };
         Ok(())
     }
 

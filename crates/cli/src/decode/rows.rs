@@ -25,7 +25,7 @@ pub struct Row<'a> {
 }
 
 enum Sink<W: Write> {
-    Csv(csv::Writer<W>),
+    Csv(Box<csv::Writer<W>>),
     Jsonl(BufWriter<W>),
 }
 
@@ -45,11 +45,11 @@ impl<'a, W: Write> RowWriter<'a, W> {
     /// A writer over `out`; the CSV header is written at once.
     pub fn new(tax: &'a Taxonomy, format: Format, labelled: bool, out: W) -> io::Result<Self> {
         let sink = match format {
-            Format::Csv => Sink::Csv(
+            Format::Csv => Sink::Csv(Box::new(
                 csv::WriterBuilder::new()
                     .buffer_capacity(BUFFER)
                     .from_writer(out),
-            ),
+            )),
             Format::Jsonl => Sink::Jsonl(BufWriter::with_capacity(BUFFER, out)),
         };
         let mut w = RowWriter {
