@@ -204,5 +204,17 @@ mod tests {
         // p(x) = 1 ≥ 0.9, p(y | x) = 0.75 ≥ 0.6, p(w | y) = 1 ≥ 0.5: the leaf.
         let d = conditional.decide(0.8, w, &cond, &mut path);
         assert_eq!((d.predicted, d.depth, d.probability), (Some(w), 3, 1.0));
+        // Outcomes against labels: the leaf under its own label, under a coarser one, a
+        // sibling's, and a background row; then the root under a fine label.
+        let id = |s: &str| tax.lookup(s).expect("node");
+        assert_eq!(conditional.outcome(&d, w, w), Outcome::Correct);
+        assert_eq!(conditional.outcome(&d, w, id("y")), Outcome::Unverifiable);
+        assert_eq!(conditional.outcome(&d, w, id("z")), Outcome::Wrong);
+        assert_eq!(conditional.outcome(&d, w, NONE), Outcome::Wrong);
+        let root = cumulative.decide(0.8, w, &cond, &mut path);
+        assert_eq!(cumulative.outcome(&root, w, id("z")), Outcome::Correct);
+        let abstained = cumulative.decide(0.4, w, &cond, &mut path);
+        assert_eq!(cumulative.outcome(&abstained, w, w), Outcome::Abstained);
+        assert_eq!(cumulative.outcome(&abstained, w, NONE), Outcome::Rejected);
     }
 }
