@@ -3,7 +3,9 @@
 mod curve;
 mod harness;
 mod invariants;
+mod nodes;
 mod numpy_files;
+mod overrides;
 mod profile;
 mod robustness;
 mod rules;

@@ -62,7 +62,7 @@ pub fn run(input: &Input, args: &SettingArgs, repeat: usize) -> Result<String, F
         checksum = checksum.wrapping_add(m.correct);
     }
     let t = Instant::now();
-    let index = CurveIndex::new(tax, batch, settings.rule);
+    let index = CurveIndex::with_overrides(tax, batch, settings.rule, &settings.thresholds.nodes);
     let curve_index_seconds = t.elapsed().as_secs_f64();
     let t = Instant::now();
     let curve = index.sweep(tax, batch, settings.thresholds.object, settings.policy);

@@ -7,7 +7,7 @@ use std::path::{Path, PathBuf};
 use hedgerow_core::intake::{self, Bundle, Kind, LogitsFeed};
 use hedgerow_core::{
     npz, Batch, Errors, Labels, LogitsReader, Objectness, Policy, Profile, Rule, Settings,
-    Taxonomy, Temperatures, Thresholds,
+    Taxonomy, Temperatures,
 };
 
 use crate::{Input, SettingArgs};
@@ -292,6 +292,33 @@ fn read_at(file: &mut File, offset: u64, len: u64) -> std::io::Result<Vec<u8>> {
     Ok(out)
 }
 
+/// One `--node-threshold ID=V`: the node's column and its threshold, or the message.
+fn node_threshold(tax: &Taxonomy, text: &str) -> Result<(u32, f64), String> {
+    let flag = format!("--node-threshold {text}");
+    // Ids may hold `=`; the value cannot, so the last one separates them.
+    let Some((id, value)) = text.rsplit_once('=') else {
+        return Err(format!(
+            "{flag}: expected ID=V, a node id and its threshold in [0, 1]"
+        ));
+    };
+    let id = id.trim();
+    let v = tax
+        .lookup(id)
+        .ok_or_else(|| format!("{flag}: {id} is not an id of the taxonomy"))?;
+    let value = value.trim();
+    let t = value
+        .parse::<f64>()
+        .ok()
+        .filter(|t| t.is_finite())
+        .ok_or_else(|| format!("{flag}: expected a number in [0, 1] after `=`, found `{value}`"))?;
+    if !(0.0..=1.0).contains(&t) {
+        return Err(format!(
+            "{flag}: threshold for node {id} {value}: expected a number in [0, 1]"
+        ));
+    }
+    Ok((v, t))
+}
+
 /// Settings from the profile (if any), overridden by explicit flags.
 pub(crate) fn settings(
     tax: &Taxonomy,
@@ -324,11 +351,16 @@ pub(crate) fn settings(
             )),
         }
     }
-    let nodes = settings.thresholds.nodes.clone();
-    let mut thresholds = Thresholds {
-        nodes,
-        ..settings.thresholds.clone()
-    };
+    let mut thresholds = settings.thresholds.clone();
+    for text in &args.node_threshold {
+        match node_threshold(tax, text) {
+            Ok((v, t)) => {
+                thresholds.nodes.retain(|&(u, _)| u != v);
+                thresholds.nodes.push((v, t));
+            }
+            Err(m) => problems.push(m),
+        }
+    }
     if let Some(text) = &args.thresholds {
         match numbers("--thresholds", text) {
             Ok(v) => thresholds.depths = v,

@@ -1,8 +1,9 @@
-//! `hedgerow`: the command line over hedgerow-core: evaluate, decode, curve and profile.
+//! `hedgerow`: the command line over hedgerow-core: evaluate, decode, curve, nodes and profile.
 
 mod bench;
 mod decode;
 mod load;
+mod nodes;
 mod report;
 
 use std::io::Write;
@@ -10,7 +11,7 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 use clap::{Args, Parser, Subcommand};
-use hedgerow_core::{evaluate, exact_curve, Profile};
+use hedgerow_core::{evaluate, exact_curve_for, Profile};
 
 use crate::load::{Failure, Loaded};
 
@@ -63,11 +64,35 @@ enum Command {
     },
     /// Write the exact precision/specificity (information gain) curve for one threshold shared
     /// by all depths (CSV).
+    ///
+    /// Every distinct operating point as the shared threshold goes from 1 to 0, the object
+    /// threshold, rule and policy held (--thresholds is what is swept, so it is not used). Nodes
+    /// given --node-threshold (or a profile's node thresholds) keep their own threshold at every
+    /// point: each row equals `evaluate --thresholds T` with the same overrides, T the row's
+    /// threshold, and holds for every shared threshold down to the next row's.
     Curve {
         #[command(flatten)]
         input: Input,
         #[command(flatten)]
         settings: SettingArgs,
+        #[arg(long)]
+        out: Option<PathBuf>,
+    },
+    /// Per taxonomy node: predictions stopping there and their outcomes, precision with a
+    /// Wilson 95 % interval, labelled rows at or below it, how many of those stopped above it,
+    /// and the wrong answers most often given for rows labelled under it.
+    ///
+    /// One record per node in taxonomy file order, the root ("(root)", empty id in CSV and
+    /// JSON) first. Default: a readable table on standard output.
+    Nodes {
+        #[command(flatten)]
+        input: Input,
+        #[command(flatten)]
+        settings: SettingArgs,
+        /// Print JSON instead of the table (to --out if given).
+        #[arg(long)]
+        json: bool,
+        /// Write CSV (or JSON with --json) to this file instead of the table.
         #[arg(long)]
         out: Option<PathBuf>,
     },
@@ -130,6 +155,14 @@ pub struct SettingArgs {
     /// How precision counts predictions below a coarse label: credit, penalize or exclude. Default credit.
     #[arg(long)]
     pub unverifiable: Option<String>,
+    /// Threshold for stepping into node ID, replacing its depth's (under either rule); repeat
+    /// for more nodes. Adds to a profile's overrides, replacing its value for the same node.
+    #[arg(
+        long = "node-threshold",
+        value_name = "ID=V",
+        allow_hyphen_values = true
+    )]
+    pub node_threshold: Vec<String>,
     /// Start from a saved threshold profile; the flags above override its values.
     #[arg(long)]
     pub profile: Option<PathBuf>,
@@ -187,15 +220,22 @@ fn run(cli: Cli) -> Result<(), Failure> {
             out,
         } => {
             let loaded = Loaded::load(&input, &settings)?;
-            let s = &loaded.settings;
-            let points = exact_curve(
-                &loaded.taxonomy,
-                &loaded.batch,
-                s.rule,
-                s.thresholds.object,
-                s.policy,
-            );
+            let points = exact_curve_for(&loaded.taxonomy, &loaded.batch, &loaded.settings);
             let bytes = report::curve_csv(&points).map_err(Failure::Other)?;
+            write_out(out.as_ref(), &bytes)
+        }
+        Command::Nodes {
+            input,
+            settings,
+            json,
+            out,
+        } => {
+            let loaded = Loaded::load(&input, &settings)?;
+            let bytes = match (json, &out) {
+                (true, _) => nodes::json(&loaded).map_err(Failure::Other)?.into_bytes(),
+                (false, Some(_)) => nodes::csv(&loaded).map_err(Failure::Other)?,
+                (false, None) => nodes::table(&loaded).into_bytes(),
+            };
             write_out(out.as_ref(), &bytes)
         }
         Command::Bench {

@@ -6,6 +6,13 @@
 //! quantity the rule compares (cumulative P, or the conditional). So as t falls, each row
 //! deepens exactly at its distinct m_d values; sweeping those in descending order and updating
 //! running sums gives every operating point.
+//!
+//! With per-node overrides the overridden nodes keep their own threshold at every point of the
+//! curve: a step into such a node does not depend on t, so it either always passes (and leaves
+//! m_d as it was: the minimum runs over the shared-threshold steps only, +∞ when there are
+//! none yet) or always fails (and caps the row's depth just above it). The stop depth is still
+//! monotone non-increasing in t, with breakpoints only where a shared-threshold step's value
+//! crosses t.
 
 use serde::{Deserialize, Serialize};
 
@@ -71,7 +78,8 @@ impl Running {
     }
 }
 
-/// Compute the curve. Points come in descending threshold order; the first is t = 1.
+/// Compute the curve without per-node overrides. Points come in descending threshold order;
+/// the first is t = 1. For settings that may hold overrides, use [`exact_curve_for`].
 pub fn exact_curve(
     tax: &Taxonomy,
     batch: &Batch,
@@ -80,6 +88,31 @@ pub fn exact_curve(
     policy: Policy,
 ) -> Vec<CurvePoint> {
     CurveIndex::new(tax, batch, rule).sweep(tax, batch, object_threshold, policy)
+}
+
+/// The curve of `settings`: its rule, object threshold and policy, and its per-node overrides
+/// held fixed while the threshold shared by every other node sweeps from 1 to 0 (the per-depth
+/// thresholds of `settings` are what is swept, so they are not used). Each point equals
+/// [`evaluate`](crate::evaluate) with every depth at the point's threshold and the same
+/// overrides.
+pub fn exact_curve_for(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Vec<CurvePoint> {
+    let th = &settings.thresholds;
+    CurveIndex::with_overrides(tax, batch, settings.rule, &th.nodes).sweep(
+        tax,
+        batch,
+        object_threshold(tax, settings),
+        settings.policy,
+    )
+}
+
+/// The object threshold `evaluate` applies: t_0, or an override given for the root's index.
+pub(crate) fn object_threshold(tax: &Taxonomy, settings: &Settings) -> f64 {
+    let th = &settings.thresholds;
+    th.nodes
+        .iter()
+        .rev()
+        .find(|&&(v, _)| v == tax.root())
+        .map_or(th.object, |&(_, t)| t)
 }
 
 /// One breakpoint: row `row` reaches depth `depth` once the shared threshold is ≤ the f64 whose
@@ -91,16 +124,37 @@ struct Event {
     depth: u8,
 }
 
-/// Every row's breakpoints, sorted once per (batch, rule). Moving the object threshold or
-/// changing the policy re-sweeps it in linear time without sorting again.
+/// Every row's breakpoints, sorted once per (batch, rule, overrides). Moving the object
+/// threshold or changing the policy re-sweeps it in linear time without sorting again.
 #[derive(Debug, Clone)]
 pub struct CurveIndex {
     rule: Rule,
+    /// The per-node overrides held fixed (as given, by column).
+    nodes: Vec<(u32, f64)>,
     events: Vec<Event>,
 }
 
 impl CurveIndex {
+    /// The index without per-node overrides: every node follows the shared threshold.
     pub fn new(tax: &Taxonomy, batch: &Batch, rule: Rule) -> Self {
+        Self::with_overrides(tax, batch, rule, &[])
+    }
+
+    /// The index with the nodes of `nodes` (column, threshold; a later entry for the same node
+    /// wins, as in [`Thresholds::resolve`](crate::Thresholds::resolve)) keeping their own
+    /// threshold at every point. An entry for the root's index is ignored here: the object
+    /// threshold is given to [`sweep`](Self::sweep).
+    pub fn with_overrides(tax: &Taxonomy, batch: &Batch, rule: Rule, nodes: &[(u32, f64)]) -> Self {
+        // NaN marks a node that follows the shared threshold.
+        let fixed: Option<Vec<f64>> = (!nodes.is_empty()).then(|| {
+            let mut f = vec![f64::NAN; tax.len()];
+            for &(v, t) in nodes {
+                if let Some(slot) = f.get_mut(v as usize) {
+                    *slot = t;
+                }
+            }
+            f
+        });
         // A row's equal consecutive m_d merge into the deepest d, so each event moves its row
         // strictly deeper. Counted first, so the list is allocated once at its exact size (it
         // is the largest thing the page holds for a big batch).
@@ -116,7 +170,17 @@ impl CurveIndex {
                     Rule::Cumulative => p,
                     Rule::Conditional => c,
                 };
-                m = m.min(q);
+                let own = fixed.as_ref().map_or(f64::NAN, |f| {
+                    f.get(tax.ancestor(leaf, d) as usize)
+                        .copied()
+                        .unwrap_or(f64::NAN)
+                });
+                if own.is_nan() {
+                    m = m.min(q);
+                } else if q < own {
+                    // Fails at every t: the row never goes deeper than d − 1.
+                    break;
+                }
                 let key = m.max(0.0).to_bits();
                 match last {
                     Some((k, _)) if k == key => last = Some((key, d as u8)),
@@ -146,11 +210,20 @@ impl CurveIndex {
             });
         }
         events.sort_unstable_by_key(|e| std::cmp::Reverse(e.key));
-        CurveIndex { rule, events }
+        CurveIndex {
+            rule,
+            nodes: nodes.to_vec(),
+            events,
+        }
     }
 
     pub fn rule(&self) -> Rule {
         self.rule
+    }
+
+    /// The per-node overrides this index holds fixed (empty for [`new`](Self::new)).
+    pub fn overrides(&self) -> &[(u32, f64)] {
+        &self.nodes
     }
 
     /// Breakpoints held (memory is about 16 bytes each).

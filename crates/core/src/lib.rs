@@ -15,7 +15,7 @@
 //!   P(parent) · p(child | parent), multiplied in f64 from the root down.
 //! - **Thresholds**: t_0 (object threshold: a row predicts only if P(root) ≥ t_0; applies only
 //!   with objectness) and t_1…t_D (a shorter list repeats its last value). A per-node override
-//!   replaces its depth's threshold for that node.
+//!   replaces its depth's threshold for that node (in the curve too: see [`exact_curve_for`]).
 //! - **Rules**: *cumulative* steps into the path's child at depth d iff P(child) ≥ t_d;
 //!   *conditional* iff p(child | parent) ≥ t_d. The prediction is the node where descent stops
 //!   (the root = "an object, type unknown").
@@ -41,6 +41,7 @@ pub mod drag;
 pub mod error;
 pub mod eval;
 pub mod intake;
+pub mod nodes;
 pub mod npy;
 pub mod npz;
 pub mod paths;
@@ -50,11 +51,12 @@ pub mod stats;
 pub mod taxonomy;
 
 pub use batch::{Batch, Labels, Objectness};
-pub use curve::{depth_sweep, exact_curve, CurveIndex, CurvePoint};
+pub use curve::{depth_sweep, exact_curve, exact_curve_for, CurveIndex, CurvePoint};
 pub use decode::{Decision, Decoder, Step};
 pub use drag::DepthDrag;
 pub use error::{Error, ErrorKind, Errors, Location, Result};
 pub use eval::{decode_row, evaluate, Metrics, Outcome, RowDecode};
+pub use nodes::{node_counts, node_report, NodeCounts, NodeRecord, NodeReport};
 pub use paths::{Ingested, LogitsReader, Paths};
 pub use profile::Profile;
 pub use settings::{Policy, Rule, Settings, Temperatures, Thresholds};
