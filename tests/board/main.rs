@@ -367,10 +367,22 @@ fn choose_bundle(b: &mut Board, name: &str, bytes: &[u8], given: &[Slot], chunk:
             return;
         }
     };
+    let prefix = &bytes[start..end.min(start + npz::PEEK_BYTES as usize)];
+    let rows = match bundle.logits_rows(&logits, prefix) {
+        Ok(rows) => rows,
+        Err(message) => {
+            b.apply(Action::Unreadable {
+                slot: Some(Slot::Logits),
+                message,
+            });
+            return;
+        }
+    };
     let mut failed = Vec::new();
     let mut whole = |slot: Slot, key: &str| {
         let m = bundle.member(key).filter(|_| !given.contains(&slot))?;
-        let read = data_range(&bundle, bytes, m).and_then(|(s, e)| bundle.inflate(m, &bytes[s..e]));
+        let read =
+            data_range(&bundle, bytes, m).and_then(|(s, e)| bundle.inflate(m, &bytes[s..e], rows));
         match read {
             Ok(v) => Some(Rc::new(v)),
             Err(message) => {
@@ -665,12 +677,17 @@ fn cancelling_a_bundle_puts_back_the_labels_and_objectness_and_starts_no_read() 
     let bundle = open_bundle("bundle-compressed.npz", &bytes).expect("bundle");
     let labels = bundle.member("labels").expect("labels");
     let (s, e) = data_range(&bundle, &bytes, labels).expect("range");
+    let logits = bundle.member("logits").expect("logits");
+    let (ls, _) = data_range(&bundle, &bytes, logits).expect("range");
+    let rows = bundle
+        .logits_rows(logits, &bytes[ls..])
+        .expect("logits rows");
     b.apply(Action::BundleChosen {
         name: "bundle-compressed.npz".into(),
         total: 776,
         keys: bundle.keys(),
         labels: Some(Rc::new(
-            bundle.inflate(labels, &bytes[s..e]).expect("labels"),
+            bundle.inflate(labels, &bytes[s..e], rows).expect("labels"),
         )),
         objectness: None,
     });

@@ -5,6 +5,7 @@ mod harness;
 mod invariants;
 mod numpy_files;
 mod profile;
+mod properties;
 mod robustness;
 mod rules;
 mod worked;

@@ -231,11 +231,26 @@ impl Bundle {
         }
     }
 
-    /// A small member inflated whole from its compressed data (`data_range`'s bytes).
-    pub fn inflate(&self, member: &npz::Member, data: &[u8]) -> Result<Vec<u8>, String> {
+    /// The row count of the `logits` member, from the first (at most `npz::PEEK_BYTES`)
+    /// bytes of its compressed data: what caps the small members.
+    pub fn logits_rows(&self, member: &npz::Member, prefix: &[u8]) -> Result<u64, String> {
+        let header = npz::peek_header(member, prefix)
+            .map_err(|k| engine_error(&self.member_name(member.key()), k))?;
+        Ok(header.shape.first().copied().unwrap_or(1))
+    }
+
+    /// A small member inflated whole from its compressed data (`data_range`'s bytes), refused
+    /// before it is inflated when its header holds more than one value for each of the
+    /// logits' `rows` ([`Bundle::logits_rows`]).
+    pub fn inflate(&self, member: &npz::Member, data: &[u8], rows: u64) -> Result<Vec<u8>, String> {
         let name = self.member_name(member.key());
         let fail = |k| engine_error(&name, k);
-        let mut flow = npz::Inflow::new(member).map_err(fail)?;
+        let logits = self.member_name("logits");
+        let limit = match member.key() {
+            "objectness" => Objectness::npy_limit(rows, &logits),
+            _ => Labels::npy_limit(rows, &logits),
+        };
+        let mut flow = npz::Inflow::new(member).map_err(fail)?.limit(limit);
         let mut out = Vec::new();
         flow.feed(
             data,
@@ -706,7 +721,7 @@ impl Board {
                 self.rescore();
             }
             Action::SetTemperature { depth, value } => {
-                if depth >= 1 && value.is_finite() && value > 0.0 {
+                if depth >= 1 && Temperatures::valid(value) {
                     let d = self.depth().max(depth);
                     let mut temps = self.temperatures.expand(d);
                     temps[depth - 1] = value;
@@ -725,11 +740,7 @@ impl Board {
                     self.settings.thresholds.depths =
                         stored.thresholds.iter().map(|&t| clamp01(t)).collect();
                 }
-                if stored
-                    .temperatures
-                    .iter()
-                    .all(|t| t.is_finite() && *t > 0.0)
-                {
+                if stored.temperatures.iter().all(|&t| Temperatures::valid(t)) {
                     self.temperatures = Temperatures(stored.temperatures);
                 }
                 self.fit_depths();

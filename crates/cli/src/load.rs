@@ -63,9 +63,14 @@ impl Loaded {
         let bundle = Bundle::open(&input.logits, &logits_name)?;
 
         let mut problems = Vec::new();
+        // A bundle's small members are capped by the logits' row count, read first.
+        let rows = match &bundle {
+            Some(b) if input.labels.is_none() || input.objectness.is_none() => b.logits_rows()?,
+            _ => 0,
+        };
         let labels = match (&input.labels, &bundle) {
             (Some(path), _) => keep(&mut problems, Labels::parse(&read(path)?, &display(path), &taxonomy)),
-            (None, Some(b)) => match b.member_bytes("labels")? {
+            (None, Some(b)) => match b.member_bytes("labels", Labels::npy_limit(rows, &b.logits_name()))? {
                 Some((name, bytes)) => keep(&mut problems, Labels::parse(&bytes, &name, &taxonomy)),
                 None => return Err(Failure::Input(vec![format!("--labels: expected a labels file, or a `labels` array in {logits_name} (it holds {})", b.keys())])),
             },
@@ -77,7 +82,7 @@ impl Loaded {
                 Objectness::parse(&read(path)?, &display(path)),
             )),
             (None, Some(b)) => b
-                .member_bytes("objectness")?
+                .member_bytes("objectness", Objectness::npy_limit(rows, &b.logits_name()))?
                 .map(|(name, bytes)| keep(&mut problems, Objectness::parse(&bytes, &name))),
             (None, None) => None,
         };
@@ -189,8 +194,35 @@ impl Bundle {
         npz::data_offset(m, &local).map_err(|k| input_error(&self.name, k))
     }
 
-    /// A small member read whole: `(display name, bytes)`.
-    fn member_bytes(&self, key: &str) -> Result<Option<(String, Vec<u8>)>, Failure> {
+    fn logits_name(&self) -> String {
+        format!("{}:logits", self.name)
+    }
+
+    /// The row count in the `logits` member's header, from its first compressed bytes.
+    fn logits_rows(&self) -> Result<u64, Failure> {
+        let Some(m) = self.member("logits") else {
+            return Err(Failure::Input(vec![format!(
+                "{}: expected a `logits` array in the bundle, found {}",
+                self.name,
+                self.keys()
+            )]));
+        };
+        let name = self.logits_name();
+        let cannot =
+            |e: std::io::Error| Failure::Input(vec![format!("{}: cannot read: {e}", self.name)]);
+        let mut file = File::open(&self.path).map_err(cannot)?;
+        let start = self.data_start(&mut file, m)?;
+        let data = read_at(&mut file, start, m.compressed.min(npz::PEEK_BYTES)).map_err(cannot)?;
+        let header = npz::peek_header(m, &data).map_err(|k| input_error(&name, k))?;
+        Ok(header.shape.first().copied().unwrap_or(1))
+    }
+
+    /// A small member read whole, refused past `limit`: `(display name, bytes)`.
+    fn member_bytes(
+        &self,
+        key: &str,
+        limit: npz::Limit,
+    ) -> Result<Option<(String, Vec<u8>)>, Failure> {
         let Some(m) = self.member(key) else {
             return Ok(None);
         };
@@ -201,7 +233,9 @@ impl Bundle {
         let start = self.data_start(&mut file, m)?;
         let data = read_at(&mut file, start, m.compressed).map_err(cannot)?;
         let mut out = Vec::new();
-        let mut flow = npz::Inflow::new(m).map_err(|k| input_error(&name, k))?;
+        let mut flow = npz::Inflow::new(m)
+            .map_err(|k| input_error(&name, k))?
+            .limit(limit);
         flow.feed(
             &data,
             &mut |c: &[u8]| -> Result<(), ErrorKind> {

@@ -116,8 +116,15 @@ impl CurveIndex {
                     Rule::Cumulative => p,
                     Rule::Conditional => c,
                 };
+                // A NaN or negative value passes no threshold in [0, 1] (evaluation compares
+                // `q >= t`): the row never reaches this depth.
+                if !(q >= 0.0) {
+                    break;
+                }
                 m = m.min(q);
-                let key = m.max(0.0).to_bits();
+                // Keys order like the floats only for non-negative ones; −0.0 (P(root) = −0.0)
+                // has the sign bit set and would sort above 1, so it becomes +0.0.
+                let key = if m > 0.0 { m.to_bits() } else { 0 };
                 match last {
                     Some((k, _)) if k == key => last = Some((key, d as u8)),
                     Some((k, depth)) => {

@@ -376,7 +376,9 @@ fn parse_descr(descr: &str) -> Result<Dtype, ErrorKind> {
         "u8" | "Q" | "L" => Scalar::U64,
         "b1" | "?" => Scalar::Bool,
         _ => match rest.strip_prefix('U').and_then(|n| n.parse::<u32>().ok()) {
-            Some(n) if n > 0 => Scalar::Str(n),
+            // Wider strings than a million characters are no labels (and 4·n must fit a
+            // 32-bit usize in the page).
+            Some(n) if n > 0 && n <= 1 << 20 => Scalar::Str(n),
             _ => return Err(unknown()),
         },
     };

@@ -427,6 +427,9 @@ async fn open_bundle(file: &File, given: &[Slot]) -> Result<OpenBundle, String> 
     };
     let member = bundle.member("logits").cloned().ok_or("no logits member")?;
     let range = data_range(member.clone()).await?;
+    // The small members are capped by the logits' row count, read from the member's header.
+    let prefix = read(range.0, range.1.min(range.0 + npz::PEEK_BYTES)).await?;
+    let rows = bundle.logits_rows(&member, &prefix)?;
     let mut problems = Vec::new();
     let mut small = Vec::new();
     for (slot, key) in [(Slot::Labels, "labels"), (Slot::Objectness, "objectness")] {
@@ -439,7 +442,7 @@ async fn open_bundle(file: &File, given: &[Slot]) -> Result<OpenBundle, String> 
         };
         let bytes = match data_range(m.clone()).await {
             Ok((s, e)) => match read(s, e).await {
-                Ok(data) => bundle.inflate(&m, &data),
+                Ok(data) => bundle.inflate(&m, &data, rows),
                 Err(e) => Err(e),
             },
             Err(e) => Err(e),
