@@ -1,6 +1,7 @@
 //! Engine tests: hand-derived worked examples, every decode rule, the exact curve, profiles.
 
 mod curve;
+mod fuzz;
 mod harness;
 mod invariants;
 mod numpy_files;
