@@ -4,6 +4,7 @@ mod batch;
 mod bench;
 mod demo;
 mod e2e;
+mod fuzz;
 mod npy_write;
 mod pyenv;
 mod rng;
@@ -22,7 +23,8 @@ tasks:
   e2e         build the page and run its end-to-end tests in headless Chromium
   gen-batch   write a large synthetic batch (--rows N --nodes M --depth D --out DIR [--seed S])
   bench       benchmark the CLI against the numpy peer (and wasm in Chromium); writes BENCHMARKS.md
-  bench-wasm  run the engine's benchmark compiled to wasm in headless Chromium";
+  bench-wasm  run the engine's benchmark compiled to wasm in headless Chromium
+  fuzz        build the fuzz targets (libFuzzer, stable toolchain) and run them ([TARGET…] [--seconds N])";
 
 fn main() -> anyhow::Result<()> {
     let mut args = std::env::args().skip(1);
@@ -37,6 +39,7 @@ fn main() -> anyhow::Result<()> {
         "gen-batch" => batch::run(&rest),
         "bench" => bench::run(&rest),
         "bench-wasm" => bench::wasm::run(&rest),
+        "fuzz" => fuzz::run(&rest),
         _ => {
             eprintln!("{USAGE}");
             std::process::exit(2);

@@ -433,15 +433,12 @@ impl LogitsReader {
     /// Check that the data was complete and return the paths.
     pub fn finish(mut self, tax: &Taxonomy) -> Result<Ingested> {
         let Some(header) = self.header.clone() else {
-            let kind = if self.head.is_empty() {
-                ErrorKind::NpyMagic {
-                    found: "an empty file".into(),
-                }
-            } else {
-                ErrorKind::NpyHeader(format!(
+            let kind = match npy::check_magic(&self.head) {
+                Err(kind) => kind,
+                Ok(()) => ErrorKind::NpyHeader(format!(
                     "the file ends inside the header ({} bytes)",
                     self.head.len()
-                ))
+                )),
             };
             return Err(self.fail(Location::default(), kind));
         };
