@@ -8,8 +8,11 @@ use hedgerow_core::{
     Profile, Rule, Settings, Taxonomy, Temperatures, Thresholds,
 };
 
+/// A target's body.
+pub type Target = fn(&[u8]);
+
 /// Every target, by the name of its folder under `tests/fuzz-corpus/`.
-pub const TARGETS: &[(&str, fn(&[u8]))] = &[
+pub const TARGETS: &[(&str, Target)] = &[
     ("npy_logits", npy_logits),
     ("npz", npz),
     ("taxonomy", taxonomy),

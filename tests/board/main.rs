@@ -368,18 +368,12 @@ fn choose_bundle(b: &mut Board, name: &str, bytes: &[u8], given: &[Slot], chunk:
         }
     };
     let prefix = &bytes[start..end.min(start + npz::PEEK_BYTES as usize)];
-    let rows = match bundle.logits_rows(&logits, prefix) {
-        Ok(rows) => rows,
-        Err(message) => {
-            b.apply(Action::Unreadable {
-                slot: Some(Slot::Logits),
-                message,
-            });
-            return;
-        }
-    };
+    // Without a readable logits header the small members are not read: the logits' own read
+    // reports the problem.
+    let rows = bundle.logits_rows(&logits, prefix).ok();
     let mut failed = Vec::new();
     let mut whole = |slot: Slot, key: &str| {
+        let rows = rows?;
         let m = bundle.member(key).filter(|_| !given.contains(&slot))?;
         let read =
             data_range(&bundle, bytes, m).and_then(|(s, e)| bundle.inflate(m, &bytes[s..e], rows));

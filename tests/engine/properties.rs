@@ -1,7 +1,7 @@
 //! Property tests: over random taxonomies, logits, objectness, thresholds, rules and policies,
 //! every way the engine scores a batch gives the same counts and sums as a plain reference
-//! written here from the definitions in the crate docs — the branch-free kernel (depth ≤ 6 and
-//! > 6, both rules), the general loop (forced by a per-node override equal to its depth's
+//! written here from the definitions in the crate docs — the branch-free kernel (both of its
+//! variants, up to six levels and deeper, and both rules), the general loop (forced by a per-node override equal to its depth's
 //! threshold), `DepthDrag` moved to random values, and the exact curve's points.
 //!
 //! Cases per property: `PROPTEST_CASES`, else 10,000.
@@ -213,8 +213,8 @@ impl Tree {
         };
         let depth: Vec<usize> = (0..=m).map(depth_of).collect();
         let mut leaves = vec![0u64; m + 1];
-        for k in 0..m {
-            if children[k].is_empty() {
+        for (k, ch) in children.iter().enumerate().take(m) {
+            if ch.is_empty() {
                 let mut v = Some(k);
                 while let Some(u) = v {
                     leaves[u] += 1;
@@ -478,13 +478,13 @@ impl Built {
         let (mut h_pred, mut h_inter, mut h_true, mut severity, mut severity_n) =
             (0u64, 0u64, 0u64, 0u64, 0u64);
         let labels = self.batch.labels();
-        for r in 0..self.leaf.len() {
-            let label = (labels[r] != u32::MAX).then(|| labels[r] as usize);
+        for (r, &l) in labels.iter().enumerate() {
+            let label = (l != u32::MAX).then_some(l as usize);
             if let Some(g) = label {
                 h_true += tree.depth[g] as u64;
             }
             let p_root = self.p_root[r];
-            if self.batch.has_objectness() && !(p_root >= t.object) {
+            if self.batch.has_objectness() && (p_root < t.object || p_root.is_nan()) {
                 out.abstained += 1;
                 continue;
             }

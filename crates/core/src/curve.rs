@@ -118,7 +118,7 @@ impl CurveIndex {
                 };
                 // A NaN or negative value passes no threshold in [0, 1] (evaluation compares
                 // `q >= t`): the row never reaches this depth.
-                if !(q >= 0.0) {
+                if q.is_nan() || q < 0.0 {
                     break;
                 }
                 m = m.min(q);

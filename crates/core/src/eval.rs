@@ -96,6 +96,13 @@ pub fn precision(policy: Policy, correct: u64, unverifiable: u64, wrong: u64) ->
     }
 }
 
+/// Whether a value reaches a threshold. A NaN reaches none (as in the kernel's `q >= t` and
+/// the curve), which `q < t` would not say.
+#[inline]
+fn passes(q: f64, t: f64) -> bool {
+    q >= t
+}
+
 /// Where one row's descent stops. `thresholds` is [`Thresholds::resolve`]'s table.
 ///
 /// [`Thresholds::resolve`]: crate::settings::Thresholds::resolve
@@ -108,8 +115,7 @@ pub fn stop_depth(
     r: usize,
 ) -> Option<usize> {
     let p_root = batch.root_probability(r);
-    // `!(x >= t)` rather than `x < t`: a NaN passes nothing, as in the kernel and the curve.
-    if batch.has_objectness() && !(p_root >= thresholds[tax.root() as usize]) {
+    if batch.has_objectness() && !passes(p_root, thresholds[tax.root() as usize]) {
         return None;
     }
     let leaf = batch.paths().leaf(r);
@@ -125,7 +131,7 @@ pub fn stop_depth(
             }
             Rule::Conditional => c,
         };
-        if !(q >= thresholds[tax.ancestor(leaf, d) as usize]) {
+        if !passes(q, thresholds[tax.ancestor(leaf, d) as usize]) {
             return Some(d - 1);
         }
     }

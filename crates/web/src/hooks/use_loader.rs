@@ -427,14 +427,15 @@ async fn open_bundle(file: &File, given: &[Slot]) -> Result<OpenBundle, String> 
     };
     let member = bundle.member("logits").cloned().ok_or("no logits member")?;
     let range = data_range(member.clone()).await?;
-    // The small members are capped by the logits' row count, read from the member's header.
+    // The small members are capped by the logits' row count, read from the member's header;
+    // without a readable header they are not read (the logits' own read reports why).
     let prefix = read(range.0, range.1.min(range.0 + npz::PEEK_BYTES)).await?;
-    let rows = bundle.logits_rows(&member, &prefix)?;
+    let rows = bundle.logits_rows(&member, &prefix).ok();
     let mut problems = Vec::new();
     let mut small = Vec::new();
     for (slot, key) in [(Slot::Labels, "labels"), (Slot::Objectness, "objectness")] {
-        let m = match bundle.member(key) {
-            Some(m) if !given.contains(&slot) => m.clone(),
+        let (m, rows) = match (bundle.member(key), rows) {
+            (Some(m), Some(rows)) if !given.contains(&slot) => (m.clone(), rows),
             _ => {
                 small.push(None);
                 continue;
