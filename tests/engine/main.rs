@@ -4,6 +4,7 @@ mod curve;
 mod fuzz;
 mod harness;
 mod invariants;
+mod limits;
 mod numpy_files;
 mod profile;
 mod properties;
