@@ -51,7 +51,11 @@ fn output_past_the_declared_size_never_reaches_the_sink() {
         let mut flow = npz::Inflow::new(&member(declared, &data, method)).expect("method");
         let (seen, err) = inflate(&mut flow, &data);
         assert!(seen <= declared, "method {method}: {seen} > {declared}");
-        assert_eq!(err, Some(ErrorKind::MemberOverflow { declared }), "method {method}");
+        assert_eq!(
+            err,
+            Some(ErrorKind::MemberOverflow { declared }),
+            "method {method}"
+        );
     }
 }
 
@@ -90,8 +94,5 @@ fn small_members_are_capped_by_the_logits_rows() {
         .expect("deflate")
         .limit(Labels::npy_limit(1000, "b.npz:logits"));
     assert_eq!(inflate(&mut flow, &data), (npy.len() as u64, None));
-    assert_eq!(
-        npz::peek_header(&m, &data).map(|h| h.shape),
-        Ok(vec![1000])
-    );
+    assert_eq!(npz::peek_header(&m, &data).map(|h| h.shape), Ok(vec![1000]));
 }
