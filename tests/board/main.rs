@@ -1,68 +1,53 @@
-//! The page's state and actions, natively: loading in any order, errors beside their file with
-//! the batch kept, every control re-scoring through the engine, profiles and stored settings.
+//! The page's state and actions, natively, through the page's own loading steps
+//! (`hedgerow_board::loading`, driven by `shell.rs` as the page's loader hook drives them):
+//! loading in any order, batches that replace each other with the files that no longer fit set
+//! aside, errors beside their file with the batch kept, every control re-scoring through the
+//! engine, profiles and stored settings, `.npz` bundles.
+
+mod overrides;
+mod shell;
 
 use std::rc::Rc;
 
-use hedgerow_board::state::{recognise, Action, Board, Slot, Stored};
-use hedgerow_core::{evaluate, LogitsReader, Policy, Rule};
+use hedgerow_board::state::{Action, Board, Origin, Slot, Stored};
+use hedgerow_core::{evaluate, Policy, Rule};
 
-fn demo(name: &str) -> Rc<Vec<u8>> {
+use shell::Shell;
+
+fn demo(name: &str) -> Vec<u8> {
     let path = concat!(env!("CARGO_MANIFEST_DIR"), "/../../demo-data/");
-    Rc::new(std::fs::read(format!("{path}{name}")).unwrap_or_else(|e| panic!("{name}: {e}")))
+    std::fs::read(format!("{path}{name}")).unwrap_or_else(|e| panic!("{name}: {e}"))
 }
 
-/// What the page's shell does with a logits file: stream it in chunks when asked.
-fn stream_logits(board: &mut Board, name: &str, bytes: &[u8]) {
-    board.apply(Action::LogitsChosen {
-        name: name.into(),
-        total: bytes.len() as u64,
-    });
-    pump(board, bytes);
+fn fixture(name: &str) -> Vec<u8> {
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/../../tests/fixtures/numpy/");
+    std::fs::read(format!("{path}{name}")).unwrap_or_else(|e| panic!("{name}: {e}"))
 }
 
-fn pump(board: &mut Board, bytes: &[u8]) {
-    while let Some(key) = board.wanted_ingest() {
-        let tax = board
-            .taxonomy
-            .as_ref()
-            .map(|(_, t)| t.clone())
-            .expect("taxonomy");
-        let temps = hedgerow_core::Temperatures(key.temperatures.clone());
-        let mut reader = LogitsReader::new(board.logits.as_deref().unwrap_or(""), &tax, &temps);
-        let mut result = Ok(());
-        for (i, chunk) in bytes.chunks(1 << 20).enumerate() {
-            result = reader.feed(&tax, chunk);
-            board.apply(Action::LogitsProgress {
-                done: ((i + 1) << 20).min(bytes.len()) as u64,
-            });
-            if result.is_err() {
-                break;
-            }
-        }
-        let result = result.and_then(|()| reader.finish(&tax));
-        board.apply(Action::LogitsDone { key, result });
-    }
+/// The demo as the page loads it at start (one selection, marked as the demo's).
+fn demo_board() -> (Board, Shell) {
+    let mut b = Board::new();
+    let mut shell = Shell::new();
+    let files =
+        ["taxonomy.csv", "logits.npy", "labels.csv", "objectness.npy"].map(|n| (n, demo(n)));
+    let given: Vec<(&str, &[u8])> = files.iter().map(|(n, v)| (*n, v.as_slice())).collect();
+    shell.give_from(&mut b, &given, Origin::Demo);
+    assert!(b.errors.is_empty(), "{:?}", b.errors);
+    assert_eq!(b.active.as_ref().map(|a| a.origin), Some(Origin::Demo));
+    (b, shell)
 }
 
 fn loaded() -> Board {
     let mut b = Board::new();
-    // Files in an awkward order: labels and logits before the taxonomy.
-    b.apply(Action::File {
-        name: "labels.csv".into(),
-        bytes: demo("labels.csv"),
-    });
-    stream_logits(&mut b, "logits.npy", &demo("logits.npy"));
+    let mut shell = Shell::new();
+    // Files in an awkward order and one at a time: labels and logits before the taxonomy.
+    shell.give(&mut b, &[("labels.csv", &demo("labels.csv"))]);
+    shell.give(&mut b, &[("logits.npy", &demo("logits.npy"))]);
     assert!(b.active.is_none());
-    b.apply(Action::File {
-        name: "objectness.npy".into(),
-        bytes: demo("objectness.npy"),
-    });
-    b.apply(Action::File {
-        name: "taxonomy.csv".into(),
-        bytes: demo("taxonomy.csv"),
-    });
-    pump(&mut b, &demo("logits.npy"));
+    shell.give(&mut b, &[("objectness.npy", &demo("objectness.npy"))]);
+    shell.give(&mut b, &[("taxonomy.csv", &demo("taxonomy.csv"))]);
     assert!(b.errors.is_empty(), "{:?}", b.errors);
+    assert!(b.set_aside.is_empty(), "{:?}", b.set_aside);
     assert!(b.active.is_some(), "a whole batch is active");
     b
 }
@@ -89,13 +74,14 @@ fn files_in_any_order_make_a_batch_and_say_what_they_are() {
     );
     assert_eq!(
         b.notes[&Slot::Logits],
-        "logits.npy: 20000 rows × 173 nodes, float16"
+        "logits.npy: 20,000 rows × 173 nodes, float16"
     );
     assert!(
-        b.notes[&Slot::Labels].contains("20000 rows, 2005 background, coarse labels 15.6 %"),
+        b.notes[&Slot::Labels].contains("20,000 rows, 2,005 background, coarse labels 15.6 %"),
         "{}",
         b.notes[&Slot::Labels]
     );
+    assert_eq!(b.active.as_ref().map(|a| a.origin), Some(Origin::User));
     check_against_engine(&b);
     assert!(b.curve.len() > 100);
     assert!(!b.sweep.is_empty());
@@ -168,17 +154,14 @@ fn sweep_follows_the_focused_depth_and_holds_the_others() {
 
 #[test]
 fn a_broken_file_shows_its_error_and_keeps_the_batch() {
-    let mut b = loaded();
+    let (mut b, mut shell) = demo_board();
     b.apply(Action::SetDepth {
         depth: 2,
         value: 0.77,
     });
     let kept = b.metrics.clone();
     let generation = b.generation;
-    b.apply(Action::File {
-        name: "labels-bad.csv".into(),
-        bytes: Rc::new(b"label\nglass\nnot-a-node\n".to_vec()),
-    });
+    shell.give(&mut b, &[("labels-bad.csv", b"label\nglass\nnot-a-node\n")]);
     let errors = &b.errors[&Slot::Labels];
     assert!(errors.iter().any(|e| e == "labels-bad.csv, line 3, column label: label `not-a-node` is not an id of the taxonomy"), "{errors:?}");
     assert_eq!(b.generation, generation, "the active batch is kept");
@@ -186,20 +169,161 @@ fn a_broken_file_shows_its_error_and_keeps_the_batch() {
     assert_eq!(b.settings.thresholds.depths[1], 0.77, "tuning kept");
     // A truncated logits file: error beside logits, batch kept.
     let bytes = demo("logits.npy");
-    stream_logits(&mut b, "cut.npy", &bytes[..bytes.len() / 2]);
+    shell.give(&mut b, &[("cut.npy", &bytes[..bytes.len() / 2])]);
     assert!(
         b.errors[&Slot::Logits][0].starts_with("cut.npy, row 9999: truncated"),
         "{:?}",
         b.errors[&Slot::Logits]
     );
     assert_eq!(b.metrics, kept);
+    assert_eq!(b.active.as_ref().map(|a| a.origin), Some(Origin::Demo));
     // Not a file the page knows.
-    b.apply(Action::File {
-        name: "notes.txt".into(),
-        bytes: Rc::new(b"hello\n".to_vec()),
-    });
-    assert!(b.errors[&Slot::Other][0].starts_with("notes.txt: not recognised"));
+    shell.give(&mut b, &[("notes.txt", b"hello\n")]);
+    assert!(
+        b.errors[&Slot::Other][0].starts_with("notes.txt: file type: expected a .npy array"),
+        "{:?}",
+        b.errors
+    );
     assert_eq!(b.metrics, kept);
+}
+
+#[test]
+fn labels_of_the_wrong_size_are_refused_and_the_batch_is_kept() {
+    let (mut b, mut shell) = demo_board();
+    let kept = b.metrics.clone();
+    let labels = demo("labels.csv");
+    let short: Vec<u8> = labels
+        .split(|&c| c == b'\n')
+        .take(101)
+        .collect::<Vec<_>>()
+        .join(&b'\n');
+    shell.give(&mut b, &[("short.csv", &short)]);
+    assert_eq!(
+        b.errors[&Slot::Labels],
+        ["short.csv: 100 rows, but the logits have 20,000 rows: not used"]
+    );
+    assert_eq!(b.metrics, kept, "the batch in use is kept");
+    assert!(b.labels.is_none(), "the refused file is not staged");
+    assert!(b.set_aside.is_empty(), "{:?}", b.set_aside);
+    // The same for objectness.
+    let mut o = hedgerow_core::npy::header_bytes("<f4", &[3], false);
+    for v in [0.5f32, 0.25, 1.0] {
+        o.extend(v.to_le_bytes());
+    }
+    shell.give(&mut b, &[("o3.npy", &o)]);
+    assert_eq!(
+        b.errors[&Slot::Objectness],
+        ["o3.npy: 3 rows, but the logits have 20,000 rows: not used"]
+    );
+    assert_eq!(b.metrics, kept);
+}
+
+#[test]
+fn a_new_taxonomy_and_logits_start_a_new_batch_and_set_the_old_files_aside() {
+    let (mut b, mut shell) = demo_board();
+    // The 7-node tree of the numpy fixtures: a classifier batch (no objectness) of 12 rows.
+    shell.stage(
+        &mut b,
+        &[
+            ("tree.csv", TREE.as_bytes()),
+            ("logits-f64.npy", &fixture("logits-f64.npy")),
+            ("labels-int64.npy", &fixture("labels-int64.npy")),
+        ],
+        Origin::User,
+    );
+    // Before the new logits are read, the demo stays in use and the controls stay its own.
+    assert_eq!(b.active.as_ref().map(|a| a.origin), Some(Origin::Demo));
+    assert_eq!(b.depth(), 5, "controls belong to the batch in use");
+    assert_eq!(b.settings.thresholds.depths.len(), 5);
+    assert!(
+        b.staging_line()
+            .is_some_and(|l| l.contains("batch in use is kept")),
+        "{:?}",
+        b.staging_line()
+    );
+    assert_eq!(
+        b.set_aside[&Slot::Objectness],
+        "demo objectness set aside: 20,000 rows, the new logits have 12 rows"
+    );
+    assert_eq!(
+        b.set_aside[&Slot::Logits],
+        "demo logits set aside: 173 columns, the new taxonomy has 7 nodes"
+    );
+    assert!(
+        b.set_aside[&Slot::Labels]
+            .starts_with("demo labels set aside: they do not name nodes of the new taxonomy"),
+        "{}",
+        b.set_aside[&Slot::Labels]
+    );
+    shell.pump(&mut b);
+    assert!(b.errors.is_empty(), "{:?}", b.errors);
+    let a = b.active.as_ref().expect("the new batch");
+    assert_eq!(a.origin, Origin::User);
+    assert!(!a.batch.has_objectness(), "complete without objectness");
+    assert_eq!(a.batch.len(), 12);
+    assert_eq!(b.depth(), 3);
+    assert_eq!(
+        b.settings.thresholds.depths.len(),
+        3,
+        "the controls follow the new batch"
+    );
+    assert_eq!(b.staging_line(), None);
+    check_against_engine(&b);
+    // A detector batch after that: objectness joins the staged batch.
+    shell.give(&mut b, &[("objectness.npy", &fixture("objectness.npy"))]);
+    assert!(b.active.as_ref().is_some_and(|a| a.batch.has_objectness()));
+    same_numbers(&mut b, &mut separate(true));
+}
+
+#[test]
+fn removing_a_slot_changes_the_batch_only_when_the_rest_is_whole() {
+    let (mut b, _shell) = demo_board();
+    let generation = b.generation;
+    b.apply(Action::Remove(Slot::Objectness));
+    let a = b.active.as_ref().expect("still a whole batch");
+    assert!(!a.batch.has_objectness(), "rebuilt without objectness");
+    assert!(b.generation > generation);
+    check_against_engine(&b);
+    let kept = b.metrics.clone();
+    b.apply(Action::Remove(Slot::Labels));
+    assert!(b.labels.is_none());
+    assert_eq!(b.metrics, kept, "the batch in use is kept");
+    assert!(
+        b.staging_line()
+            .is_some_and(|l| l.contains("labels needed")),
+        "{:?}",
+        b.staging_line()
+    );
+}
+
+#[test]
+fn replacing_only_the_labels_rescores_the_same_paths() {
+    let (mut b, mut shell) = demo_board();
+    let paths = b.active.as_ref().map(|a| a.batch.paths() as *const _);
+    let generation = b.generation;
+    let labels = String::from_utf8(demo("labels.csv")).expect("utf8");
+    // Every labelled row coarsened to its top-level node is still the same rows.
+    let tax = b.active.as_ref().expect("active").taxonomy.clone();
+    let coarse: String = labels
+        .lines()
+        .map(|l| match tax.lookup(l) {
+            Some(v) if l != "label" => tax.id(tax.ancestor(v, 1)).to_string(),
+            _ => l.to_string(),
+        })
+        .map(|l| l + "\n")
+        .collect();
+    shell.give(&mut b, &[("coarse.csv", coarse.as_bytes())]);
+    assert!(b.errors.is_empty(), "{:?}", b.errors);
+    let a = b.active.as_ref().expect("active");
+    assert_eq!(a.names[&Slot::Labels], "coarse.csv");
+    assert_eq!(a.origin, Origin::User, "no longer the demo alone");
+    assert!(b.generation > generation, "a new batch");
+    assert_eq!(
+        paths,
+        Some(a.batch.paths() as *const _),
+        "the same paths: nothing re-read"
+    );
+    check_against_engine(&b);
 }
 
 #[test]
@@ -211,33 +335,63 @@ fn profiles_round_trip_and_refuse_another_taxonomy() {
         value: 0.42,
     });
     let json = b.profile().expect("profile").to_json();
-    let mut fresh = loaded();
-    fresh.apply(Action::File {
-        name: "p.json".into(),
-        bytes: Rc::new(json.into_bytes()),
-    });
+    let (mut fresh, mut shell) = demo_board();
+    shell.give(&mut fresh, &[("p.json", json.as_bytes())]);
     assert!(fresh.errors.is_empty(), "{:?}", fresh.errors);
     assert_eq!(fresh.settings, b.settings);
     assert_eq!(fresh.metrics, b.metrics);
     let other = br#"{"kind":"hedgerow threshold profile","version":1,"rule":"cumulative","object_threshold":0.5,"thresholds":[0.5],"temperatures":[],"unverifiable":"credit","taxonomy":{"fingerprint":"ffff0000ffff","nodes":12,"depth":3}}"#;
-    fresh.apply(Action::File {
-        name: "other.json".into(),
-        bytes: Rc::new(other.to_vec()),
-    });
+    shell.give(&mut fresh, &[("other.json", other)]);
     assert!(fresh.errors[&Slot::Profile][0]
         .starts_with("other.json: this profile was made for another taxonomy"));
     assert_eq!(fresh.settings, b.settings, "settings kept");
 }
 
 #[test]
+fn a_profile_for_the_staged_taxonomy_waits_for_its_batch() {
+    // A profile made on the fixtures' tree.
+    let mut tree_board = separate(false);
+    tree_board.apply(Action::SetDepth {
+        depth: 2,
+        value: 0.3,
+    });
+    let json = tree_board.profile().expect("profile").to_json();
+    let (mut b, mut shell) = demo_board();
+    let kept = b.settings.clone();
+    shell.stage(
+        &mut b,
+        &[
+            ("tree.csv", TREE.as_bytes()),
+            ("logits-f64.npy", &fixture("logits-f64.npy")),
+            ("labels-int64.npy", &fixture("labels-int64.npy")),
+            ("p.json", json.as_bytes()),
+        ],
+        Origin::User,
+    );
+    assert!(b.errors.is_empty(), "{:?}", b.errors);
+    assert_eq!(
+        b.settings, kept,
+        "the demo's settings while the demo is in use"
+    );
+    assert!(b.pending_profile.is_some());
+    shell.pump(&mut b);
+    assert_eq!(
+        b.settings, tree_board.settings,
+        "applied once its batch is active"
+    );
+    assert_eq!(b.metrics, tree_board.metrics);
+}
+
+#[test]
 fn stored_settings_restore_and_temperatures_ask_for_a_new_read() {
-    let mut b = loaded();
+    let (mut b, mut shell) = demo_board();
     let stored = Stored {
         rule: Rule::Conditional,
         object_threshold: 0.25,
         thresholds: vec![0.9, 0.8],
         temperatures: vec![1.0, 1.5],
         unverifiable: Policy::Exclude,
+        nodes: Default::default(),
     };
     let text = serde_json::to_string(&stored).expect("json");
     b.apply(Action::Restore(serde_json::from_str(&text).expect("back")));
@@ -247,7 +401,7 @@ fn stored_settings_restore_and_temperatures_ask_for_a_new_read() {
         .wanted_ingest()
         .expect("temperatures changed: logits must be read again");
     assert_eq!(key.temperatures, vec![1.0, 1.5, 1.5, 1.5, 1.5]);
-    pump(&mut b, &demo("logits.npy"));
+    shell.pump(&mut b);
     assert!(b.wanted_ingest().is_none());
     check_against_engine(&b);
     assert_eq!(
@@ -257,175 +411,45 @@ fn stored_settings_restore_and_temperatures_ask_for_a_new_read() {
 }
 
 #[test]
-fn files_are_recognised_by_content() {
-    assert_eq!(recognise("t.csv", b"id,parent,name\n"), Ok(Slot::Taxonomy));
-    assert_eq!(
-        recognise("whatever", b"[{\"id\":\"a\"}]"),
-        Ok(Slot::Taxonomy)
-    );
-    assert_eq!(recognise("y.csv", b"row,label\n0,a\n"), Ok(Slot::Labels));
-    assert_eq!(recognise("p.json", b"{\"kind\": \"x\"}"), Ok(Slot::Profile));
-    assert_eq!(
-        recognise("l.npy", &demo("logits.npy")[..256]),
-        Ok(Slot::Logits)
-    );
-    assert_eq!(
-        recognise("o.npy", &demo("objectness.npy")[..256]),
-        Ok(Slot::Objectness)
-    );
-    assert!(recognise("x.bin", b"\x00\x01").is_err());
+fn cancelling_a_read_keeps_the_previous_files_and_asks_for_no_read() {
+    let (mut b, mut shell) = demo_board();
+    let before = b.logits.as_ref().map(|l| l.seq);
+    let kept = b.metrics.clone();
+    shell.stage(&mut b, &[("other.npy", &demo("logits.npy"))], Origin::User);
+    shell.cancel_after(&mut b, 1);
+    assert_eq!(b.logits.as_ref().map(|l| l.seq), before);
+    assert!(b.progress.is_none());
+    assert_eq!(b.wanted_ingest(), None, "no re-read after a cancel");
+    assert_eq!(b.metrics, kept);
+    // A re-read for new temperatures, cancelled: the temperatures go back.
+    b.apply(Action::SetTemperature {
+        depth: 2,
+        value: 1.5,
+    });
+    shell.cancel_after(&mut b, 1);
+    assert_eq!(b.temperatures.expand(b.depth()), vec![1.0; b.depth()]);
+    assert_eq!(b.wanted_ingest(), None);
+    assert_eq!(b.metrics, kept);
 }
 
-// --- .npz bundles: the steps the page's shell takes with `Blob.slice`, on bytes in memory ---
-
-use hedgerow_board::state::{is_bundle, Bundle, LogitsFeed};
-use hedgerow_core::{npz, Errors, Taxonomy, Temperatures};
+// --- .npz bundles ---
 
 /// The 7-node tree of `tests/engine/harness.rs`, which the numpy fixtures were written for.
 const TREE: &str = "id,parent,name\nb,a,B\na,,A\nc,a,C\nd,,D\ne,d,E\nf,b,F\ng,b,G\n";
 
-fn fixture(name: &str) -> Vec<u8> {
-    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/../../tests/fixtures/numpy/");
-    std::fs::read(format!("{path}{name}")).unwrap_or_else(|e| panic!("{name}: {e}"))
-}
-
-fn tree(b: &mut Board) {
-    b.apply(Action::File {
-        name: "tree.csv".into(),
-        bytes: Rc::new(TREE.as_bytes().to_vec()),
-    });
-}
-
-/// Stream what `make` feeds into paths whenever the board asks, in chunks of `chunk` bytes.
-fn pump_feed(
-    board: &mut Board,
-    data: &[u8],
-    chunk: usize,
-    make: impl Fn(&Taxonomy, &Temperatures) -> Result<LogitsFeed, Errors>,
-) {
-    while let Some(key) = board.wanted_ingest() {
-        let tax = board
-            .taxonomy
-            .as_ref()
-            .map(|(_, t)| t.clone())
-            .expect("taxonomy");
-        let temps = Temperatures(key.temperatures.clone());
-        board.apply(Action::LogitsProgress { done: 0 });
-        let result = make(&tax, &temps).and_then(|mut feed| {
-            for (i, c) in data.chunks(chunk).enumerate() {
-                feed.feed(&tax, c)?;
-                board.apply(Action::LogitsProgress {
-                    done: ((i + 1) * chunk).min(data.len()) as u64,
-                });
-            }
-            feed.finish(&tax)
-        });
-        board.apply(Action::LogitsDone { key, result });
-    }
-}
-
-/// The bundle's directory, read from the tail as the shell does.
-fn open_bundle(name: &str, bytes: &[u8]) -> Result<Bundle, String> {
-    let len = bytes.len() as u64;
-    let (a, z) = Bundle::tail(len);
-    let (ds, de) = Bundle::directory(name, &bytes[a as usize..z as usize], len)?;
-    Bundle::open(name, len, &bytes[ds as usize..de as usize])
-}
-
-fn data_range(bundle: &Bundle, bytes: &[u8], m: &npz::Member) -> Result<(usize, usize), String> {
-    let at = m.local_header as usize;
-    let local =
-        &bytes[at.min(bytes.len())..(at + npz::LOCAL_HEADER_BYTES as usize).min(bytes.len())];
-    bundle
-        .data_range(m, local)
-        .map(|(s, e)| (s as usize, e as usize))
-}
-
-/// What the shell does with a bundle among the files of one selection (`given`: the slots of
-/// the other files chosen with it): open it, read the small members whole unless given
-/// separately, choose it, and stream its logits member in `chunk`-byte pieces.
-fn choose_bundle(b: &mut Board, name: &str, bytes: &[u8], given: &[Slot], chunk: usize) {
-    assert!(is_bundle(bytes));
-    let bundle = match open_bundle(name, bytes) {
-        Ok(bundle) => bundle,
-        Err(message) => {
-            b.apply(Action::Unreadable {
-                slot: Some(Slot::Logits),
-                message,
-            });
-            return;
-        }
-    };
-    let logits = bundle.member("logits").expect("open checks it").clone();
-    let (start, end) = match data_range(&bundle, bytes, &logits) {
-        Ok(r) => r,
-        Err(message) => {
-            b.apply(Action::Unreadable {
-                slot: Some(Slot::Logits),
-                message,
-            });
-            return;
-        }
-    };
-    let prefix = &bytes[start..end.min(start + npz::PEEK_BYTES as usize)];
-    // Without a readable logits header the small members are not read: the logits' own read
-    // reports the problem.
-    let rows = bundle.logits_rows(&logits, prefix).ok();
-    let mut failed = Vec::new();
-    let mut whole = |slot: Slot, key: &str| {
-        let rows = rows?;
-        let m = bundle.member(key).filter(|_| !given.contains(&slot))?;
-        let read =
-            data_range(&bundle, bytes, m).and_then(|(s, e)| bundle.inflate(m, &bytes[s..e], rows));
-        match read {
-            Ok(v) => Some(Rc::new(v)),
-            Err(message) => {
-                failed.push((slot, message));
-                None
-            }
-        }
-    };
-    let labels = whole(Slot::Labels, "labels");
-    let objectness = whole(Slot::Objectness, "objectness");
-    b.apply(Action::BundleChosen {
-        name: name.into(),
-        total: (end - start) as u64,
-        keys: bundle.keys(),
-        labels,
-        objectness,
-    });
-    for (slot, message) in failed {
-        b.apply(Action::Unreadable {
-            slot: Some(slot),
-            message,
-        });
-    }
-    pump_feed(b, &bytes[start..end], chunk, |tax, temps| {
-        LogitsFeed::member(name, &logits, tax, temps)
-    });
-}
-
 /// The same arrays as separate files (numpy's own, from the same script).
 fn separate(objectness: bool) -> Board {
     let mut b = Board::new();
-    tree(&mut b);
-    let logits = fixture("logits-f64.npy");
-    b.apply(Action::LogitsChosen {
-        name: "logits-f64.npy".into(),
-        total: logits.len() as u64,
-    });
-    pump_feed(&mut b, &logits, 100, |tax, temps| {
-        Ok(LogitsFeed::npy("logits-f64.npy", tax, temps))
-    });
-    b.apply(Action::File {
-        name: "labels-int64.npy".into(),
-        bytes: Rc::new(fixture("labels-int64.npy")),
-    });
+    let mut shell = Shell::new();
+    shell.chunk = 100;
+    shell.give(&mut b, &[("tree.csv", TREE.as_bytes())]);
+    shell.give(&mut b, &[("logits-f64.npy", &fixture("logits-f64.npy"))]);
+    shell.give(
+        &mut b,
+        &[("labels-int64.npy", &fixture("labels-int64.npy"))],
+    );
     if objectness {
-        b.apply(Action::File {
-            name: "objectness.npy".into(),
-            bytes: Rc::new(fixture("objectness.npy")),
-        });
+        shell.give(&mut b, &[("objectness.npy", &fixture("objectness.npy"))]);
     }
     assert!(b.errors.is_empty(), "{:?}", b.errors);
     assert!(b.active.is_some());
@@ -457,11 +481,11 @@ fn same_numbers(a: &mut Board, b: &mut Board) {
 fn savez_and_savez_compressed_bundles_load_like_the_separate_files() {
     for name in ["bundle.npz", "bundle-compressed.npz"] {
         let bytes = fixture(name);
-        assert_eq!(recognise(name, &bytes[..64]), Ok(Slot::Logits));
         for chunk in [7, 1 << 20] {
             let mut b = Board::new();
-            tree(&mut b);
-            choose_bundle(&mut b, name, &bytes, &[], chunk);
+            let mut shell = Shell::new();
+            shell.chunk = chunk;
+            shell.give(&mut b, &[("tree.csv", TREE.as_bytes()), (name, &bytes)]);
             assert!(b.errors.is_empty(), "{name}: {:?}", b.errors);
             let a = b.active.as_ref().expect("a whole batch from the bundle");
             assert!(a.batch.has_objectness());
@@ -479,12 +503,6 @@ fn savez_and_savez_compressed_bundles_load_like_the_separate_files() {
                 b.notes[&Slot::Logits],
                 format!("{name}: 12 rows × 7 nodes, float64 (a bundle of `logits`, `labels`, `objectness`)")
             );
-            assert!(
-                b.notes[&Slot::Labels]
-                    .starts_with(&format!("{name}:labels: 12 rows, 2 background")),
-                "{}",
-                b.notes[&Slot::Labels]
-            );
             same_numbers(&mut b, &mut separate(true));
         }
     }
@@ -492,19 +510,16 @@ fn savez_and_savez_compressed_bundles_load_like_the_separate_files() {
 
 #[test]
 fn progress_counts_the_compressed_bytes_of_the_logits_member() {
-    let bytes = fixture("bundle-compressed.npz");
     let mut b = Board::new();
-    tree(&mut b);
-    let bundle = open_bundle("bundle-compressed.npz", &bytes).expect("bundle");
-    let m = bundle.member("logits").expect("logits");
-    assert_eq!((m.method, m.compressed, m.size), (8, 776, 800));
-    b.apply(Action::BundleChosen {
-        name: "bundle-compressed.npz".into(),
-        total: m.compressed,
-        keys: bundle.keys(),
-        labels: None,
-        objectness: None,
-    });
+    let mut shell = Shell::new();
+    shell.stage(
+        &mut b,
+        &[
+            ("tree.csv", TREE.as_bytes()),
+            ("bundle-compressed.npz", &fixture("bundle-compressed.npz")),
+        ],
+        Origin::User,
+    );
     assert!(
         b.wanted_ingest().is_some(),
         "the bundle's logits are to be streamed"
@@ -513,38 +528,34 @@ fn progress_counts_the_compressed_bytes_of_the_logits_member() {
     let p = b.progress.clone().expect("progress");
     assert_eq!(
         (p.name.as_str(), p.done, p.total),
-        ("bundle-compressed.npz", 300, 776)
+        ("bundle-compressed.npz", 300, 776),
+        "776 compressed bytes of the 800-byte member (numpy's own file)"
     );
 }
 
 #[test]
 fn a_bundle_after_the_demo_fills_labels_and_objectness_and_separate_files_win() {
-    // The page starts with the demo; a bundle and its taxonomy replace the whole batch.
-    let mut b = loaded();
-    tree(&mut b);
-    choose_bundle(&mut b, "bundle.npz", &fixture("bundle.npz"), &[], 1 << 20);
+    let (mut b, mut shell) = demo_board();
+    shell.give(
+        &mut b,
+        &[
+            ("tree.csv", TREE.as_bytes()),
+            ("bundle.npz", &fixture("bundle.npz")),
+        ],
+    );
     assert!(b.errors.is_empty(), "{:?}", b.errors);
     same_numbers(&mut b, &mut separate(true));
 
-    // Labels chosen alongside the bundle are used instead of the bundle's (as --labels is).
-    let mut b = loaded();
-    tree(&mut b);
-    choose_bundle(
+    // Labels chosen with the bundle are used instead of the bundle's (as --labels is).
+    let (mut b, mut shell) = demo_board();
+    shell.give(
         &mut b,
-        "bundle.npz",
-        &fixture("bundle.npz"),
-        &[Slot::Labels],
-        1 << 20,
+        &[
+            ("tree.csv", TREE.as_bytes()),
+            ("bundle.npz", &fixture("bundle.npz")),
+            ("labels-str.npy", &fixture("labels-str.npy")),
+        ],
     );
-    assert_eq!(
-        b.labels.as_ref().map(|(n, _)| n.as_str()),
-        Some("labels.csv"),
-        "kept for now"
-    );
-    b.apply(Action::File {
-        name: "labels-str.npy".into(),
-        bytes: Rc::new(fixture("labels-str.npy")),
-    });
     assert!(b.errors.is_empty(), "{:?}", b.errors);
     let a = b.active.as_ref().expect("active");
     assert_eq!(a.names[&Slot::Labels], "labels-str.npy");
@@ -568,19 +579,23 @@ fn renamed(name: &str, from: &[u8], to: &[u8]) -> Vec<u8> {
 }
 
 #[test]
-fn a_bundle_without_objectness_leaves_none_staged() {
+fn a_bundle_without_objectness_sets_the_old_objectness_aside() {
     let bytes = renamed(
         "bundle-compressed.npz",
         b"objectness.npy",
         b"confidence.npy",
     );
-    let mut b = loaded();
-    tree(&mut b);
-    choose_bundle(&mut b, "b.npz", &bytes, &[], 64);
+    let (mut b, mut shell) = demo_board();
+    shell.chunk = 64;
+    shell.give(&mut b, &[("tree.csv", TREE.as_bytes()), ("b.npz", &bytes)]);
     assert!(b.errors.is_empty(), "{:?}", b.errors);
     assert_eq!(
         b.notes[&Slot::Objectness],
         "none: b.npz holds no objectness"
+    );
+    assert_eq!(
+        b.set_aside[&Slot::Objectness],
+        "demo objectness set aside: b.npz holds no objectness"
     );
     let a = b.active.as_ref().expect("active without objectness");
     assert!(!a.batch.has_objectness());
@@ -590,7 +605,7 @@ fn a_bundle_without_objectness_leaves_none_staged() {
 
 #[test]
 fn bundle_errors_show_beside_the_logits_in_the_engines_words_and_keep_the_batch() {
-    let mut b = loaded();
+    let (mut b, mut shell) = demo_board();
     b.apply(Action::SetDepth {
         depth: 2,
         value: 0.77,
@@ -610,17 +625,17 @@ fn bundle_errors_show_beside_the_logits_in_the_engines_words_and_keep_the_batch(
 
     // No `logits` member.
     let bytes = renamed("bundle.npz", b"logits.npy", b"scores.npy");
-    choose_bundle(&mut b, "scores.npz", &bytes, &[], 1 << 20);
+    shell.give(&mut b, &[("scores.npz", &bytes)]);
     check(&b, "scores.npz: expected a `logits` array in the bundle, found `scores`, `labels`, `objectness`");
     assert_eq!(
-        b.logits.as_deref(),
+        b.logits.as_ref().map(|l| l.name.as_str()),
         Some("logits.npy"),
         "the logits in use stay staged"
     );
 
     // Not a whole zip archive.
     let bytes = fixture("bundle.npz");
-    choose_bundle(&mut b, "cut.npz", &bytes[..bytes.len() - 30], &[], 1 << 20);
+    shell.give(&mut b, &[("cut.npz", &bytes[..bytes.len() - 30])]);
     check(&b, "cut.npz: zip bundle: expected an archive as np.savez writes it, found `no end-of-directory record");
 
     // A compression np.savez does not write (bzip2 = 12) on the logits member.
@@ -629,98 +644,101 @@ fn bundle_errors_show_beside_the_logits_in_the_engines_words_and_keep_the_batch(
         .find(|&i| bytes[i..i + 4] == *b"PK\x01\x02")
         .expect("the first directory entry (logits)");
     bytes[dir + 10] = 12;
-    choose_bundle(&mut b, "bzip.npz", &bytes, &[], 1 << 20);
+    shell.give(&mut b, &[("bzip.npz", &bytes)]);
     check(&b, "bzip.npz:logits: bundle member `logits.npy`: expected stored or deflated (np.savez / np.savez_compressed), found `compression method 12`");
 
-    // Deflate data that is not: found while streaming.
+    // Named .npz but not a zip archive.
+    shell.give(&mut b, &[("text.npz", b"id,parent\n")]);
+    assert_eq!(
+        b.errors[&Slot::Other],
+        ["text.npz, byte 0: zip bundle: expected an archive as np.savez writes it, found `the first bytes \\x69\\x64\\x2c\\x70 (a zip archive starts with PK\\x03\\x04)`"]
+    );
+
+    // Deflate data that is not: found while streaming (its tree first, so it is read).
     let mut bytes = fixture("bundle-compressed.npz");
-    let bundle = open_bundle("x", &bytes).expect("bundle");
-    let (start, _) =
-        data_range(&bundle, &bytes, bundle.member("logits").expect("logits")).expect("range");
-    bytes[start] = 0xff; // block type 3: reserved
-    tree(&mut b);
-    choose_bundle(&mut b, "bad-deflate.npz", &bytes, &[], 1 << 20);
+    let local = (0..bytes.len() - 4)
+        .find(|&i| bytes[i..i + 4] == *b"PK\x03\x04")
+        .expect("the logits member's local header");
+    let n = u16::from_le_bytes([bytes[local + 26], bytes[local + 27]]) as usize;
+    let e = u16::from_le_bytes([bytes[local + 28], bytes[local + 29]]) as usize;
+    bytes[local + 30 + n + e] = 0xff; // block type 3: reserved
+    shell.give(
+        &mut b,
+        &[("tree.csv", TREE.as_bytes()), ("bad-deflate.npz", &bytes)],
+    );
     check(
         &b,
         "bad-deflate.npz:logits: bundle member `logits.npy`: expected valid deflate data",
     );
     assert_eq!(b.wanted_ingest(), None, "a failed read is not retried");
-
-    // Named .npz but not a zip archive.
-    assert_eq!(
-        recognise("text.npz", b"id,parent\n"),
-        Err("text.npz: zip bundle: expected an archive as np.savez writes it, found `the first bytes \\x69\\x64\\x2c\\x70 (a zip archive starts with PK\\x03\\x04)`".to_string())
-    );
 }
 
 #[test]
-fn cancelling_a_bundle_puts_back_the_labels_and_objectness_and_starts_no_read() {
-    let mut b = loaded();
-    // The bundle comes with its taxonomy, so the files staged no longer fit the batch in use
-    // (the demo's labels are not ids of the new taxonomy: an error beside them).
-    tree(&mut b);
+fn cancelling_a_bundle_puts_back_every_slot_and_starts_no_read() {
+    let (mut b, mut shell) = demo_board();
     let before = (
-        b.labels.as_ref().map(|(n, _)| n.clone()),
-        b.objectness.as_ref().map(|(n, _)| n.clone()),
+        b.labels.as_ref().map(|l| l.name.clone()),
+        b.objectness.as_ref().map(|o| o.name.clone()),
         b.notes.clone(),
         b.metrics.clone(),
         b.errors.clone(),
     );
-    assert!(before.4.contains_key(&Slot::Labels));
     let bytes = fixture("bundle-compressed.npz");
-    let bundle = open_bundle("bundle-compressed.npz", &bytes).expect("bundle");
-    let labels = bundle.member("labels").expect("labels");
-    let (s, e) = data_range(&bundle, &bytes, labels).expect("range");
-    let logits = bundle.member("logits").expect("logits");
-    let (ls, _) = data_range(&bundle, &bytes, logits).expect("range");
-    let rows = bundle
-        .logits_rows(logits, &bytes[ls..])
-        .expect("logits rows");
-    b.apply(Action::BundleChosen {
-        name: "bundle-compressed.npz".into(),
-        total: 776,
-        keys: bundle.keys(),
-        labels: Some(Rc::new(
-            bundle.inflate(labels, &bytes[s..e], rows).expect("labels"),
-        )),
-        objectness: None,
-    });
+    shell.stage(&mut b, &[("bundle-compressed.npz", &bytes)], Origin::User);
     assert_eq!(
-        b.labels.as_ref().map(|(n, _)| n.as_str()),
-        Some("bundle-compressed.npz:labels")
+        b.labels.as_ref().map(|l| l.name.as_str()),
+        Some("bundle-compressed.npz:labels"),
+        "column indices: they fit any taxonomy of 7 nodes or more"
     );
-    assert!(b.wanted_ingest().is_some());
-    b.apply(Action::LogitsProgress { done: 100 });
-    b.apply(Action::LogitsCancelled);
+    // Cancelled after the first few bytes, before the header shows it is for another tree.
+    shell.chunk = 16;
+    shell.cancel_after(&mut b, 16);
     assert!(b.progress.is_none());
-    assert_eq!(b.logits.as_deref(), Some("logits.npy"));
-    assert_eq!(b.bundle, None);
-    assert_eq!(b.labels.as_ref().map(|(n, _)| n.clone()), before.0);
-    assert_eq!(b.objectness.as_ref().map(|(n, _)| n.clone()), before.1);
+    assert_eq!(
+        b.logits.as_ref().map(|l| l.name.as_str()),
+        Some("logits.npy")
+    );
+    assert_eq!(b.labels.as_ref().map(|l| l.name.clone()), before.0);
+    assert_eq!(b.objectness.as_ref().map(|o| o.name.clone()), before.1);
     assert_eq!(b.notes[&Slot::Labels], before.2[&Slot::Labels]);
     assert_eq!(b.metrics, before.3, "the batch in use is kept");
     assert_eq!(
         b.errors, before.4,
         "the errors of the slots put back, and no other"
     );
-    // The demo's logits under the new taxonomy would fail: no read starts by itself.
     assert_eq!(b.wanted_ingest(), None, "no read after a cancel");
-    // Choosing the bundle again reads it.
-    choose_bundle(&mut b, "bundle-compressed.npz", &bytes, &[], 1 << 20);
+    // Choosing the bundle again with its taxonomy reads it.
+    shell.give(
+        &mut b,
+        &[
+            ("tree.csv", TREE.as_bytes()),
+            ("bundle-compressed.npz", &bytes),
+        ],
+    );
     assert!(b.errors.is_empty(), "{:?}", b.errors);
     same_numbers(&mut b, &mut separate(true));
 }
 
 #[test]
 fn a_temperature_change_streams_the_bundles_logits_again() {
-    let bytes = fixture("bundle-compressed.npz");
     let mut b = Board::new();
-    tree(&mut b);
-    choose_bundle(&mut b, "bundle-compressed.npz", &bytes, &[], 100);
+    let mut shell = Shell::new();
+    shell.chunk = 100;
+    shell.give(
+        &mut b,
+        &[
+            ("tree.csv", TREE.as_bytes()),
+            ("bundle-compressed.npz", &fixture("bundle-compressed.npz")),
+        ],
+    );
     let mut plain = separate(true);
-    let bundle = open_bundle("bundle-compressed.npz", &bytes).expect("bundle");
-    let logits = bundle.member("logits").expect("logits").clone();
-    let (start, end) = data_range(&bundle, &bytes, &logits).expect("range");
+    let mut plain_shell = Shell::new();
+    plain_shell.stage(
+        &mut plain,
+        &[("logits-f64.npy", &fixture("logits-f64.npy"))],
+        Origin::User,
+    );
+    plain_shell.pump(&mut plain);
     for board in [&mut b, &mut plain] {
         board.apply(Action::SetTemperature {
             depth: 2,
@@ -731,13 +749,8 @@ fn a_temperature_change_streams_the_bundles_logits_again() {
             "new temperatures: read again"
         );
     }
-    pump_feed(&mut b, &bytes[start..end], 100, |tax, temps| {
-        LogitsFeed::member("bundle-compressed.npz", &logits, tax, temps)
-    });
-    let npy = fixture("logits-f64.npy");
-    pump_feed(&mut plain, &npy, 100, |tax, temps| {
-        Ok(LogitsFeed::npy("logits-f64.npy", tax, temps))
-    });
+    shell.pump(&mut b);
+    plain_shell.pump(&mut plain);
     assert!(b.errors.is_empty(), "{:?}", b.errors);
     assert_eq!(
         b.active.as_ref().map(|a| a.batch.temperatures().0.clone()),

@@ -6,10 +6,12 @@ mod demo;
 mod e2e;
 mod fuzz;
 mod npy_write;
+mod npz_write;
 mod pyenv;
 mod rng;
 mod test;
 mod web;
+mod wordnet;
 
 use std::path::PathBuf;
 
@@ -22,6 +24,8 @@ tasks:
   serve       build the page and serve it on 127.0.0.1
   e2e         build the page and run its end-to-end tests in headless Chromium
   gen-batch   write a large synthetic batch (--rows N --nodes M --depth D --out DIR [--seed S])
+  gen-wordnet write a test batch over WordNet's noun taxonomy (--out DIR [--root SYNSET] [--rows N]
+              [--seed S] [--objectness] [--bundle]; needs Debian's wordnet-base)
   bench       benchmark the CLI against the numpy peer (and wasm in Chromium); writes BENCHMARKS.md
   bench-wasm  run the engine's benchmark compiled to wasm in headless Chromium
   fuzz        build the fuzz targets (libFuzzer, stable toolchain) and run them ([TARGET…] [--seconds N])";
@@ -37,6 +41,7 @@ fn main() -> anyhow::Result<()> {
         "serve" => web::serve(&rest),
         "e2e" => e2e::run(&rest),
         "gen-batch" => batch::run(&rest),
+        "gen-wordnet" => wordnet::run(&rest),
         "bench" => bench::run(&rest),
         "bench-wasm" => bench::wasm::run(&rest),
         "fuzz" => fuzz::run(&rest),

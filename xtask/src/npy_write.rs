@@ -23,6 +23,13 @@ impl Element for f32 {
     }
 }
 
+impl Element for i64 {
+    const DESCR: &'static str = "<i8";
+    fn put_le(self, out: &mut Vec<u8>) {
+        out.extend_from_slice(&self.to_le_bytes());
+    }
+}
+
 /// The preamble exactly as NumPy writes it: magic, version 1.0, u16 LE header length, then the
 /// Python dict literal padded with spaces and a final `\n`, so that the data start at a multiple
 /// of 64 bytes (NumPy aligns for memory-mapping).

@@ -4,9 +4,10 @@ use std::fs::File;
 use std::io::{Read, Seek, SeekFrom};
 use std::path::{Path, PathBuf};
 
+use hedgerow_core::intake::{self, Bundle, Kind, LogitsFeed};
 use hedgerow_core::{
-    npz, Batch, ErrorKind, Errors, Labels, Location, LogitsReader, Objectness, Policy, Profile,
-    Rule, Settings, Taxonomy, Temperatures, Thresholds,
+    npz, Batch, Errors, Labels, LogitsReader, Objectness, Policy, Profile, Rule, Settings,
+    Taxonomy, Temperatures, Thresholds,
 };
 
 use crate::{Input, SettingArgs};
@@ -33,11 +34,11 @@ pub struct Loaded {
 /// Bytes per read of the logits file: rows are decoded chunk by chunk and the chunk dropped.
 const CHUNK: usize = 1 << 20;
 
-fn display(path: &Path) -> String {
+pub(crate) fn display(path: &Path) -> String {
     path.display().to_string()
 }
 
-fn read(path: &Path) -> Result<Vec<u8>, Failure> {
+pub(crate) fn read(path: &Path) -> Result<Vec<u8>, Failure> {
     std::fs::read(path)
         .map_err(|e| Failure::Input(vec![format!("{}: cannot read: {e}", display(path))]))
 }
@@ -57,41 +58,28 @@ fn numbers(flag: &str, text: &str) -> Result<Vec<f64>, String> {
 impl Loaded {
     pub fn load(input: &Input, args: &SettingArgs) -> Result<Self, Failure> {
         let tax_name = display(&input.taxonomy);
-        let taxonomy = Taxonomy::parse(&read(&input.taxonomy)?, &tax_name)?;
+        let tax_bytes = read(&input.taxonomy)?;
+        intake::given_as(&tax_name, &tax_bytes, Kind::Taxonomy).map_err(one)?;
+        let taxonomy = Taxonomy::parse(&tax_bytes, &tax_name)?;
         let (settings, temperatures) = settings(&taxonomy, args)?;
-        let logits_name = display(&input.logits);
-        let bundle = Bundle::open(&input.logits, &logits_name)?;
-
+        let sources = Sources::open(input)?;
         let mut problems = Vec::new();
-        // A bundle's small members are capped by the logits' row count, read first.
-        let rows = match &bundle {
-            Some(b) if input.labels.is_none() || input.objectness.is_none() => b.logits_rows()?,
-            _ => 0,
-        };
-        let labels = match (&input.labels, &bundle) {
-            (Some(path), _) => keep(&mut problems, Labels::parse(&read(path)?, &display(path), &taxonomy)),
-            (None, Some(b)) => match b.member_bytes("labels", Labels::npy_limit(rows, &b.logits_name()))? {
-                Some((name, bytes)) => keep(&mut problems, Labels::parse(&bytes, &name, &taxonomy)),
-                None => return Err(Failure::Input(vec![format!("--labels: expected a labels file, or a `labels` array in {logits_name} (it holds {})", b.keys())])),
-            },
-            (None, None) => return Err(Failure::Input(vec!["--labels: expected a labels file (or an .npz bundle holding `labels` as --logits)".into()])),
-        };
-        let objectness = match (&input.objectness, &bundle) {
-            (Some(path), _) => Some(keep(
+        let labels = match &sources.labels {
+            Some(small) => keep(
                 &mut problems,
-                Objectness::parse(&read(path)?, &display(path)),
-            )),
-            (None, Some(b)) => b
-                .member_bytes("objectness", Objectness::npy_limit(rows, &b.logits_name()))?
-                .map(|(name, bytes)| keep(&mut problems, Objectness::parse(&bytes, &name))),
-            (None, None) => None,
+                Labels::parse(&small.bytes, &small.name, &taxonomy),
+            ),
+            None => return Err(Failure::Input(vec![sources.no_labels()])),
         };
+        let objectness = sources
+            .objectness
+            .as_ref()
+            .map(|small| keep(&mut problems, Objectness::parse(&small.bytes, &small.name)));
         let ingested = keep(
             &mut problems,
-            match &bundle {
-                Some(b) => b.stream_logits(&taxonomy, &temperatures)?,
-                None => stream_logits(&input.logits, &logits_name, &taxonomy, &temperatures)?,
-            },
+            sources
+                .logits
+                .stream(&taxonomy, &temperatures, |_| Ok(()))?,
         );
         if !problems.is_empty() {
             return Err(Failure::Input(problems));
@@ -112,7 +100,7 @@ impl Loaded {
         };
         let batch = Batch::new(
             &taxonomy,
-            &logits_name,
+            &sources.logits.name,
             ingested,
             temperatures,
             labels,
@@ -127,7 +115,7 @@ impl Loaded {
 }
 
 /// The value, or its problems noted so every input's problems are reported together.
-fn keep<T>(problems: &mut Vec<String>, r: hedgerow_core::Result<T>) -> Option<T> {
+pub(crate) fn keep<T>(problems: &mut Vec<String>, r: hedgerow_core::Result<T>) -> Option<T> {
     match r {
         Ok(v) => Some(v),
         Err(e) => {
@@ -137,141 +125,162 @@ fn keep<T>(problems: &mut Vec<String>, r: hedgerow_core::Result<T>) -> Option<T>
     }
 }
 
-fn input_error(name: &str, kind: ErrorKind) -> Failure {
-    Failure::from(Errors::from(hedgerow_core::Error::new(
-        name,
-        Location::default(),
-        kind,
-    )))
+pub(crate) fn one(e: hedgerow_core::Error) -> Failure {
+    Failure::from(Errors::from(e))
 }
 
-/// An `.npz` bundle given as `--logits`: its directory, read from the end of the file.
-struct Bundle {
-    path: PathBuf,
-    name: String,
-    members: Vec<npz::Member>,
+/// A small input read whole: a labels or objectness file, or a bundle's member.
+pub struct Small {
+    /// How messages name it: `labels.csv` or `bundle.npz:labels`.
+    pub name: String,
+    pub bytes: Vec<u8>,
 }
 
-impl Bundle {
-    /// `Some` if the file is a zip archive (np.savez writes `PK\x03\x04` first).
-    fn open(path: &Path, name: &str) -> Result<Option<Self>, Failure> {
+/// The files of one command, located by the intake's rules: the logits (a `.npy`, or a
+/// bundle's `logits` member) to stream, and the small inputs read whole, a given file winning
+/// over the bundle's member of the same kind.
+pub struct Sources {
+    pub logits: LogitsSource,
+    pub labels: Option<Small>,
+    pub objectness: Option<Small>,
+    /// The bundle's arrays, when `--logits` is one (for messages).
+    bundle_keys: Option<String>,
+}
+
+impl Sources {
+    pub fn open(input: &Input) -> Result<Self, Failure> {
+        let name = display(&input.logits);
         let cannot = |e: std::io::Error| Failure::Input(vec![format!("{name}: cannot read: {e}")]);
-        let mut file = File::open(path).map_err(cannot)?;
-        let mut magic = [0u8; 4];
-        let n = file.read(&mut magic).map_err(cannot)?;
-        if n < 4 || &magic != b"PK\x03\x04" {
-            return Ok(None);
-        }
+        let mut file = File::open(&input.logits).map_err(cannot)?;
         let len = file.metadata().map_err(cannot)?.len();
-        let tail_len = len.min(npz::TAIL_BYTES);
-        let tail = read_at(&mut file, len - tail_len, tail_len).map_err(cannot)?;
-        let (offset, size) = npz::directory_range(&tail, len).map_err(|k| input_error(name, k))?;
-        let dir = read_at(&mut file, offset, size).map_err(cannot)?;
-        let members = npz::parse_directory(&dir).map_err(|k| input_error(name, k))?;
-        Ok(Some(Bundle {
-            path: path.to_path_buf(),
-            name: name.to_string(),
-            members,
-        }))
-    }
-
-    fn keys(&self) -> String {
-        self.members
-            .iter()
-            .map(|m| format!("`{}`", m.key()))
-            .collect::<Vec<_>>()
-            .join(", ")
-    }
-
-    fn member(&self, key: &str) -> Option<&npz::Member> {
-        self.members.iter().find(|m| m.key() == key)
-    }
-
-    /// Where a member's compressed data starts.
-    fn data_start(&self, file: &mut File, m: &npz::Member) -> Result<u64, Failure> {
-        let local = read_at(file, m.local_header, npz::LOCAL_HEADER_BYTES)
-            .map_err(|e| Failure::Input(vec![format!("{}: cannot read: {e}", self.name)]))?;
-        npz::data_offset(m, &local).map_err(|k| input_error(&self.name, k))
-    }
-
-    fn logits_name(&self) -> String {
-        format!("{}:logits", self.name)
-    }
-
-    /// The row count in the `logits` member's header, from its first compressed bytes.
-    fn logits_rows(&self) -> Result<u64, Failure> {
-        let Some(m) = self.member("logits") else {
-            return Err(Failure::Input(vec![format!(
-                "{}: expected a `logits` array in the bundle, found {}",
-                self.name,
-                self.keys()
-            )]));
+        let head = read_at(&mut file, 0, intake::HEAD_BYTES.min(len)).map_err(cannot)?;
+        let mut given = Vec::new();
+        let mut small = |kind: Kind, path: &Option<PathBuf>| -> Result<Option<Small>, Failure> {
+            let Some(path) = path else { return Ok(None) };
+            given.push(kind);
+            let name = display(path);
+            let bytes = read(path)?;
+            intake::given_as(&name, &bytes, kind).map_err(one)?;
+            Ok(Some(Small { name, bytes }))
         };
-        let name = self.logits_name();
-        let cannot =
-            |e: std::io::Error| Failure::Input(vec![format!("{}: cannot read: {e}", self.name)]);
-        let mut file = File::open(&self.path).map_err(cannot)?;
-        let start = self.data_start(&mut file, m)?;
-        let data = read_at(&mut file, start, m.compressed.min(npz::PEEK_BYTES)).map_err(cannot)?;
-        let header = npz::peek_header(m, &data).map_err(|k| input_error(&name, k))?;
-        Ok(header.shape.first().copied().unwrap_or(1))
-    }
-
-    /// A small member read whole, refused past `limit`: `(display name, bytes)`.
-    fn member_bytes(
-        &self,
-        key: &str,
-        limit: npz::Limit,
-    ) -> Result<Option<(String, Vec<u8>)>, Failure> {
-        let Some(m) = self.member(key) else {
-            return Ok(None);
+        let mut labels = small(Kind::Labels, &input.labels)?;
+        let mut objectness = small(Kind::Objectness, &input.objectness)?;
+        if !intake::is_bundle(&head) {
+            intake::given_as(&name, &head, Kind::Logits).map_err(one)?;
+            return Ok(Sources {
+                logits: LogitsSource {
+                    path: input.logits.clone(),
+                    name,
+                    range: (0, len),
+                    member: None,
+                },
+                labels,
+                objectness,
+                bundle_keys: None,
+            });
+        }
+        let (a, z) = Bundle::tail(len);
+        let tail = read_at(&mut file, a, z - a).map_err(cannot)?;
+        let (ds, de) = Bundle::directory(&name, &tail, len).map_err(one)?;
+        let dir = read_at(&mut file, ds, de - ds).map_err(cannot)?;
+        let bundle = Bundle::open(&name, len, &dir).map_err(one)?;
+        let mut data_range = |m: &npz::Member| -> Result<(u64, u64), Failure> {
+            let local =
+                read_at(&mut file, m.local_header, npz::LOCAL_HEADER_BYTES).map_err(cannot)?;
+            bundle.data_range(m, &local).map_err(one)
         };
-        let name = format!("{}:{key}", self.name);
-        let cannot =
-            |e: std::io::Error| Failure::Input(vec![format!("{}: cannot read: {e}", self.name)]);
-        let mut file = File::open(&self.path).map_err(cannot)?;
-        let start = self.data_start(&mut file, m)?;
-        let data = read_at(&mut file, start, m.compressed).map_err(cannot)?;
-        let mut out = Vec::new();
-        let mut flow = npz::Inflow::new(m)
-            .map_err(|k| input_error(&name, k))?
-            .limit(limit);
-        flow.feed(
-            &data,
-            &mut |c: &[u8]| -> Result<(), ErrorKind> {
-                out.extend_from_slice(c);
-                Ok(())
+        let wanted = bundle.members_wanted(&given);
+        // The small members are capped by the logits' row count, read from the start of the
+        // `logits` member (without it, they are not read: the logits' read says why).
+        let rows = match bundle.member("logits").cloned() {
+            Some(logits) if !wanted.is_empty() => {
+                let (s, e) = data_range(&logits)?;
+                let mut f = File::open(&input.logits).map_err(cannot)?;
+                let prefix = read_at(&mut f, s, (e - s).min(npz::PEEK_BYTES)).map_err(cannot)?;
+                bundle.logits_rows(&logits, &prefix).ok()
+            }
+            _ => None,
+        };
+        for (kind, m) in wanted {
+            let Some(rows) = rows else { break };
+            let (s, e) = data_range(&m)?;
+            let data = {
+                let mut f = File::open(&input.logits).map_err(cannot)?;
+                read_at(&mut f, s, e - s).map_err(cannot)?
+            };
+            let member = Small {
+                name: bundle.member_name(m.key()),
+                bytes: bundle.inflate(&m, &data, rows).map_err(one)?,
+            };
+            match kind {
+                Kind::Labels => labels = Some(member),
+                _ => objectness = Some(member),
+            }
+        }
+        let logits = bundle
+            .member("logits")
+            .cloned()
+            .ok_or_else(|| Failure::Other(anyhow::anyhow!("bundle opened without logits")))?;
+        let range = data_range(&logits)?;
+        Ok(Sources {
+            bundle_keys: Some(bundle.keys_text()),
+            logits: LogitsSource {
+                path: input.logits.clone(),
+                name: name.clone(),
+                range,
+                member: Some((bundle, logits)),
             },
-            |k| k,
-        )
-        .map_err(|k| input_error(&name, k))?;
-        flow.finish().map_err(|k| input_error(&name, k))?;
-        Ok(Some((name, out)))
+            labels,
+            objectness,
+        })
     }
 
-    /// Stream the `logits` member through the inflater into greedy paths.
-    fn stream_logits(
+    /// The message for a command that needs labels and has none.
+    pub fn no_labels(&self) -> String {
+        match &self.bundle_keys {
+            Some(keys) => format!(
+                "--labels: expected a labels file, or a `labels` array in {} (it holds {keys})",
+                self.logits.name
+            ),
+            None => {
+                "--labels: expected a labels file (or an .npz bundle holding `labels` as --logits)"
+                    .into()
+            }
+        }
+    }
+}
+
+/// Where the logits' bytes lie: the whole `.npy`, or a bundle member's compressed data.
+pub struct LogitsSource {
+    path: PathBuf,
+    /// The file's name as given.
+    pub name: String,
+    range: (u64, u64),
+    member: Option<(Bundle, npz::Member)>,
+}
+
+impl LogitsSource {
+    /// Stream the bytes chunk by chunk through the intake's [`LogitsFeed`]; `after_chunk` runs
+    /// after each chunk (to drain the rows decoded so far). The outer error is I/O, the inner
+    /// the file's problems.
+    pub fn stream(
         &self,
         tax: &Taxonomy,
         temps: &Temperatures,
+        mut after_chunk: impl FnMut(&mut LogitsReader) -> Result<(), Failure>,
     ) -> Result<hedgerow_core::Result<hedgerow_core::Ingested>, Failure> {
-        let Some(m) = self.member("logits") else {
-            return Err(Failure::Input(vec![format!(
-                "{}: expected a `logits` array in the bundle, found {}",
-                self.name,
-                self.keys()
-            )]));
+        let name = &self.name;
+        let cannot = |e: std::io::Error| Failure::Input(vec![format!("{name}: cannot read: {e}")]);
+        let mut feed = match &self.member {
+            None => LogitsFeed::npy(name, tax, temps),
+            Some((bundle, m)) => match LogitsFeed::member(bundle, m, tax, temps) {
+                Ok(f) => f,
+                Err(e) => return Ok(Err(e)),
+            },
         };
-        let name = format!("{}:logits", self.name);
-        let cannot =
-            |e: std::io::Error| Failure::Input(vec![format!("{}: cannot read: {e}", self.name)]);
         let mut file = File::open(&self.path).map_err(cannot)?;
-        let start = self.data_start(&mut file, m)?;
-        file.seek(SeekFrom::Start(start)).map_err(cannot)?;
-        let mut reader = LogitsReader::new(&name, tax, temps);
-        let mut flow = npz::Inflow::new(m).map_err(|k| input_error(&name, k))?;
-        let wrap = |k| Errors::from(hedgerow_core::Error::new(&name, Location::default(), k));
-        let mut left = m.compressed;
+        file.seek(SeekFrom::Start(self.range.0)).map_err(cannot)?;
+        let mut left = self.range.1 - self.range.0;
         let mut buf = vec![0u8; CHUNK];
         while left > 0 {
             let want = (left as usize).min(CHUNK);
@@ -280,14 +289,12 @@ impl Bundle {
                 break;
             }
             left -= n as u64;
-            if let Err(e) = flow.feed(&buf[..n], &mut |c: &[u8]| reader.feed(tax, c), wrap) {
+            if let Err(e) = feed.feed(tax, &buf[..n]) {
                 return Ok(Err(e));
             }
+            after_chunk(feed.reader_mut())?;
         }
-        if let Err(k) = flow.finish() {
-            return Ok(Err(wrap(k)));
-        }
-        Ok(reader.finish(tax))
+        Ok(feed.finish(tax))
     }
 }
 
@@ -298,33 +305,11 @@ fn read_at(file: &mut File, offset: u64, len: u64) -> std::io::Result<Vec<u8>> {
     Ok(out)
 }
 
-/// Read the logits file chunk by chunk into greedy paths.
-fn stream_logits(
-    path: &Path,
-    name: &str,
-    tax: &Taxonomy,
-    temps: &Temperatures,
-) -> Result<hedgerow_core::Result<hedgerow_core::Ingested>, Failure> {
-    let mut file =
-        File::open(path).map_err(|e| Failure::Input(vec![format!("{name}: cannot read: {e}")]))?;
-    let mut reader = LogitsReader::new(name, tax, temps);
-    let mut buf = vec![0u8; CHUNK];
-    loop {
-        let n = file
-            .read(&mut buf)
-            .map_err(|e| Failure::Input(vec![format!("{name}: cannot read: {e}")]))?;
-        if n == 0 {
-            break;
-        }
-        if let Err(e) = reader.feed(tax, &buf[..n]) {
-            return Ok(Err(e));
-        }
-    }
-    Ok(reader.finish(tax))
-}
-
 /// Settings from the profile (if any), overridden by explicit flags.
-fn settings(tax: &Taxonomy, args: &SettingArgs) -> Result<(Settings, Temperatures), Failure> {
+pub(crate) fn settings(
+    tax: &Taxonomy,
+    args: &SettingArgs,
+) -> Result<(Settings, Temperatures), Failure> {
     let (mut settings, mut temps) = match &args.profile {
         Some(path) => {
             let profile = Profile::from_json(&read(path)?, &display(path), tax)?;

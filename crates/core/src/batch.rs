@@ -359,31 +359,11 @@ impl Batch {
         objectness: Option<Objectness>,
     ) -> Result<Self> {
         let n = ingested.paths.len() as u64;
-        let mut errors = Vec::new();
-        if labels.nodes.len() as u64 != n {
-            errors.push(Error::new(
-                &labels.file,
-                Location::default(),
-                ErrorKind::RowCount {
-                    found: labels.nodes.len() as u64,
-                    other: logits_file.to_string(),
-                    expected: n,
-                },
-            ));
-        }
+        let mut others = vec![(labels.file.as_str(), labels.nodes.len() as u64)];
         if let Some(o) = &objectness {
-            if o.values.len() as u64 != n {
-                errors.push(Error::new(
-                    &o.file,
-                    Location::default(),
-                    ErrorKind::RowCount {
-                        found: o.values.len() as u64,
-                        other: logits_file.to_string(),
-                        expected: n,
-                    },
-                ));
-            }
+            others.push((o.file.as_str(), o.values.len() as u64));
         }
+        let errors = crate::intake::row_errors(logits_file, n, &others);
         if !errors.is_empty() {
             return Err(Errors(errors));
         }

@@ -161,6 +161,8 @@ pub enum ErrorKind {
         rows: u64,
         other: String,
     },
+    #[error("expected a `logits` array in the bundle, found {found}")]
+    NoLogitsMember { found: String },
     #[error("{0} more problems not shown")]
     More(u64),
 }
@@ -240,6 +242,9 @@ impl Collector {
         } else {
             self.more += 1;
         }
+    }
+    pub fn is_empty(&self) -> bool {
+        self.errors.is_empty() && self.more == 0
     }
     /// `Err` with everything collected so far (and empties the collector), or `Ok`.
     pub fn finish(&mut self, file: &str) -> Result<()> {

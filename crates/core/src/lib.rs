@@ -36,18 +36,22 @@
 
 pub mod batch;
 pub mod curve;
+pub mod decode;
 pub mod drag;
 pub mod error;
 pub mod eval;
+pub mod intake;
 pub mod npy;
 pub mod npz;
 pub mod paths;
 pub mod profile;
 pub mod settings;
+pub mod stats;
 pub mod taxonomy;
 
 pub use batch::{Batch, Labels, Objectness};
 pub use curve::{depth_sweep, exact_curve, CurveIndex, CurvePoint};
+pub use decode::{Decision, Decoder, Step};
 pub use drag::DepthDrag;
 pub use error::{Error, ErrorKind, Errors, Location, Result};
 pub use eval::{decode_row, evaluate, Metrics, Outcome, RowDecode};

@@ -4,8 +4,7 @@
 
 use std::rc::Rc;
 
-use hedgerow_board::state::{Action, Slot, Stored};
-use hedgerow_core::{Policy, Rule};
+use hedgerow_board::state::{Action, Slot};
 use yew::prelude::*;
 
 use super::chart::{Chart, ChartView};
@@ -20,17 +19,6 @@ use crate::browser;
 use crate::hooks::use_file_drop::use_file_drop;
 use crate::hooks::use_loader::use_loader;
 use crate::store::BoardState;
-
-/// The settings of a fresh page (the command line's defaults).
-fn defaults() -> Stored {
-    Stored {
-        rule: Rule::Cumulative,
-        object_threshold: 0.5,
-        thresholds: vec![0.5],
-        temperatures: Vec::new(),
-        unverifiable: Policy::Credit,
-    }
-}
 
 #[function_component(App)]
 pub fn app() -> Html {
@@ -66,13 +54,13 @@ pub fn app() -> Html {
     let on_demo = use_callback(loader.clone(), |(), loader| loader.load_demo());
     let on_cancel = use_callback(loader.clone(), |(), loader| loader.cancel());
     let on_dismiss = on_action.reform(|()| Action::ClearErrors);
-    let on_reset = on_action.reform(|()| Action::Restore(defaults()));
+    let on_reset = on_action.reform(|()| Action::Reset);
     let on_save = {
         let board = board.clone();
         Callback::from(move |()| {
             let result = match board.profile() {
                 Some(p) => browser::download(
-                    "hedgerow-profile.json",
+                    &board.profile_file_name(browser::local_time()),
                     "application/json",
                     &(p.to_json() + "\n"),
                 ),
@@ -92,10 +80,20 @@ pub fn app() -> Html {
 
     let depth = board.depth();
     let errors: Vec<String> = board.errors.values().flatten().cloned().collect();
-    let active_names = board.active.as_ref().map(|a| a.names.clone());
+    let active_names = board.active.as_ref().map(|a| (a.names.clone(), a.origin));
     let kept = active_names
         .as_ref()
-        .map(|n| AttrValue::from(n.values().cloned().collect::<Vec<_>>().join(", ")));
+        .map(|(n, _)| AttrValue::from(n.values().cloned().collect::<Vec<_>>().join(", ")));
+    let filled: Vec<Slot> = [
+        (Slot::Taxonomy, board.taxonomy.is_some()),
+        (Slot::Logits, board.logits.is_some()),
+        (Slot::Labels, board.labels.is_some()),
+        (Slot::Objectness, board.objectness.is_some()),
+    ]
+    .into_iter()
+    .filter_map(|(s, f)| f.then_some(s))
+    .collect();
+    let on_remove = use_callback(loader.clone(), |slot, loader| loader.remove(slot));
     let has_objectness = board
         .active
         .as_ref()
@@ -130,20 +128,23 @@ pub fn app() -> Html {
             <div class="layout">
                 <aside class="left">
                     <Controls settings={board.settings.clone()} depth={depth} has_objectness={has_objectness} focus={focus}
-                        stop_share={stop_share} temperatures={temperatures} can_save={board.metrics.is_some()}
+                        stop_share={stop_share} temperatures={temperatures} node_overrides={board.node_overrides()}
+                        can_save={board.metrics.is_some()}
                         on_action={on_action.clone()} on_save={on_save} on_reset={on_reset} />
                 </aside>
                 <div class="right">
                     <Headline metrics={board.metrics.clone()} />
                     <section class="charts" aria-label="Charts">
-                        <Chart id="chart-tradeoff" title="Precision against specificity" caption={sweep_caption} view={tradeoff} />
+                        <Chart id="chart-tradeoff" title="Precision against specificity (information gain)" caption={sweep_caption} view={tradeoff} />
                         <Chart id="chart-stops" title="Where predictions stop"
                             caption="Share of predictions that stop at each depth (0 = the root: type unknown), by outcome."
                             view={stops} />
                     </section>
                 </div>
             </div>
-            <FilesPanel notes={board.notes.clone()} errors={board.errors.clone()} active={active_names} last_read_ms={loader.last_read_ms()} />
+            <FilesPanel notes={board.notes.clone()} errors={board.errors.clone()} set_aside={board.set_aside.clone()}
+                filled={filled} active={active_names} staging={board.staging_line()}
+                last_read_ms={loader.last_read_ms()} on_remove={on_remove} />
             <footer class="foot">
                 { "Everything runs in this page: files are read locally and nothing is sent anywhere. The scores come from the same engine as the " }
                 <code>{ "hedgerow" }</code>{ " command line." }

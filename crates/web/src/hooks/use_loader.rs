@@ -1,125 +1,79 @@
-//! Loading: the demo, chosen or dropped files, and the streamed read of logits.
-//!
-//! Small files (taxonomy, labels, objectness, profile) are read whole and handed to the board
-//! as `Action::File`. A logits file is only *chosen* (`Action::LogitsChosen`): its handle (or
-//! the demo's bytes) is kept here by name, and whenever the board asks for paths
-//! (`Board::wanted_ingest`: once a taxonomy is there, again after a temperature change) it is
-//! read in chunks through `hedgerow_core::LogitsReader`, yielding to the browser between
-//! chunks so the page stays responsive, with progress and a working Cancel.
-//!
-//! An `.npz` bundle is a logits file too: its tail and directory are read with `Blob.slice`
-//! (`hedgerow_board::state::Bundle`), its `logits` member's compressed bytes are streamed in
-//! the same chunks through the inflater (`LogitsFeed`), and its small `labels` and
-//! `objectness` members are read whole into their slots (`Action::BundleChosen`), unless the
-//! same selection holds those files. The whole bundle is never read into memory.
+//! Loading in the page: the demo, chosen or dropped files, and the streamed read of logits.
+//! The steps are the board's `loading` module (the same code the board's tests drive), over
+//! [`PageSource`]: a chosen file read with `Blob.slice`, or the embedded demo's bytes. This
+//! hook keeps the chosen logits by name, starts a read whenever the board asks for paths
+//! (`Board::wanted_ingest`: once a taxonomy is there, again after a temperature change),
+//! yields to the browser between chunks so the page stays responsive, and makes Cancel work.
 
 use std::cell::{Cell, RefCell};
 use std::collections::HashMap;
+use std::future::Future;
 use std::rc::Rc;
 
-use hedgerow_board::state::{is_bundle, recognise, Action, Bundle, IngestKey, LogitsFeed, Slot};
-use hedgerow_core::{npz, Error, ErrorKind, Errors, Ingested, Location, Taxonomy, Temperatures};
+use hedgerow_board::loading::{self, LogitsPlan, Source, CHUNK};
+use hedgerow_board::state::{Action, Origin, Slot};
+use hedgerow_core::{Error, ErrorKind, Location};
 use web_sys::File;
 use yew::prelude::*;
 
-use crate::browser::{self, finish_read, next_tick, read_range, start_read};
-use crate::demo_data;
+use crate::browser::{self, finish_read, next_tick, start_read};
+use crate::demo_data::{self, DemoFile};
 use crate::store::BoardState;
 
-/// Bytes read from a logits file per step; the page yields to the browser after each.
-const CHUNK: u64 = 2 << 20;
-/// Bytes read to recognise a file (enough for any .npy header or a CSV/JSON first line).
-const HEAD: u64 = 64 << 10;
-
-/// Where a logits file's bytes come from.
+/// Where a file's bytes come from.
 #[derive(Clone)]
-enum Source {
+pub enum PageSource {
     File(File),
-    Demo(&'static [u8]),
+    Demo(&'static DemoFile),
 }
 
-impl Source {
-    fn len(&self) -> u64 {
-        match self {
-            Source::File(f) => f.size().max(0.0) as u64,
-            Source::Demo(b) => b.len() as u64,
-        }
-    }
-
-    /// Start reading `start..end`: the browser reads a file's bytes while the page goes on
-    /// (the next chunk is read while this one is decoded).
-    fn start_read(&self, start: u64, end: u64) -> Pending {
-        match self {
-            Source::File(f) => Pending::Reading(start_read(f, start, end)),
-            Source::Demo(b) => Pending::Ready(
-                b.get(start as usize..end as usize)
-                    .unwrap_or_default()
-                    .to_vec(),
-            ),
-        }
-    }
-}
-
-/// A read started by [`Source::start_read`].
+/// A read started by [`PageSource::read`].
 enum Pending {
     Reading(Result<wasm_bindgen_futures::JsFuture, String>),
     Ready(Vec<u8>),
 }
 
-impl Pending {
-    async fn bytes(self) -> Result<Vec<u8>, String> {
+impl Source for PageSource {
+    fn name(&self) -> String {
         match self {
-            Pending::Reading(r) => finish_read(r?).await,
-            Pending::Ready(b) => Ok(b),
+            PageSource::File(f) => f.name(),
+            PageSource::Demo(d) => d.name.to_string(),
         }
     }
-}
 
-/// A chosen logits file: where its bytes come from and which of them hold the array.
-#[derive(Clone)]
-struct Logits {
-    source: Source,
-    /// The bytes to stream: the whole file, or a bundle member's compressed data.
-    range: (u64, u64),
-    /// The bundle's name and its `logits` member, when `range` is one.
-    member: Option<(String, npz::Member)>,
-}
-
-impl Logits {
-    fn whole(source: Source) -> Self {
-        let len = source.len();
-        Logits {
-            source,
-            range: (0, len),
-            member: None,
+    fn len(&self) -> u64 {
+        match self {
+            PageSource::File(f) => f.size().max(0.0) as u64,
+            PageSource::Demo(d) => d.bytes.len() as u64,
         }
     }
-}
 
-/// A file of a selection, recognised and (unless it is logits) read.
-enum Picked {
-    Whole(String, Rc<Vec<u8>>),
-    Npy(File),
-    Bundle(Box<OpenBundle>),
-}
-
-/// A bundle ready to choose: its directory read, the logits member located, the small
-/// members read (or why not).
-struct OpenBundle {
-    name: String,
-    keys: Vec<String>,
-    logits: Logits,
-    labels: Option<Rc<Vec<u8>>>,
-    objectness: Option<Rc<Vec<u8>>>,
-    problems: Vec<(Slot, String)>,
+    /// The browser starts reading at once; the page goes on while it reads.
+    fn read(&self, start: u64, end: u64) -> impl Future<Output = Result<Vec<u8>, String>> {
+        let pending = match self {
+            PageSource::File(f) => Pending::Reading(start_read(f, start, end)),
+            PageSource::Demo(d) => Pending::Ready(
+                d.bytes
+                    .get(start as usize..end.min(d.bytes.len() as u64) as usize)
+                    .unwrap_or_default()
+                    .to_vec(),
+            ),
+        };
+        async move {
+            match pending {
+                Pending::Reading(r) => finish_read(r?).await,
+                Pending::Ready(b) => Ok(b),
+            }
+        }
+    }
 }
 
 #[derive(Default)]
 struct Shared {
-    /// Logits sources by file name (the board refers to logits by name).
-    sources: RefCell<HashMap<String, Logits>>,
-    /// The source the latest choice replaced under the same name, put back on Cancel.
-    replaced: RefCell<Option<(String, Option<Logits>)>>,
+    /// Logits plans by file name (the board refers to logits by name).
+    plans: RefCell<HashMap<String, LogitsPlan<PageSource>>>,
+    /// The plan the latest choice replaced under the same name, put back on Cancel.
+    replaced: RefCell<Option<(String, Option<LogitsPlan<PageSource>>)>>,
     /// The current read's ticket: bumping it abandons a read in flight.
     ticket: Cell<u64>,
     running: Cell<bool>,
@@ -140,129 +94,76 @@ impl PartialEq for Loader {
     }
 }
 
+/// Reports a read's progress to the board and checks it is still wanted.
+struct ReadProgress<'a> {
+    loader: &'a Loader,
+    ticket: u64,
+}
+
+impl loading::Progress for ReadProgress<'_> {
+    fn done(&mut self, bytes: u64) -> bool {
+        if self.loader.shared.ticket.get() != self.ticket {
+            return false;
+        }
+        self.loader.dispatch(Action::LogitsProgress { done: bytes });
+        true
+    }
+
+    fn pause(&mut self) -> impl Future<Output = ()> {
+        next_tick()
+    }
+}
+
 impl Loader {
     fn dispatch(&self, action: Action) {
         self.dispatcher.dispatch(action);
     }
 
-    /// Load the embedded demo batch (one click; also at startup).
+    /// Load the embedded demo batch (one click; also at startup), through the same steps as
+    /// the user's files.
     pub fn load_demo(&self) {
-        let tax = demo_data::TAXONOMY;
-        self.dispatch(Action::File {
-            name: tax.name.into(),
-            bytes: Rc::new(tax.bytes.to_vec()),
-        });
-        self.choose_logits(
-            demo_data::LOGITS.name.into(),
-            Logits::whole(Source::Demo(demo_data::LOGITS.bytes)),
-        );
-        for f in [demo_data::LABELS, demo_data::OBJECTNESS] {
-            self.dispatch(Action::File {
-                name: f.name.into(),
-                bytes: Rc::new(f.bytes.to_vec()),
-            });
-        }
+        let files = [
+            &demo_data::TAXONOMY,
+            &demo_data::LOGITS,
+            &demo_data::LABELS,
+            &demo_data::OBJECTNESS,
+        ]
+        .map(PageSource::Demo)
+        .to_vec();
+        self.load(files, Origin::Demo);
     }
 
-    /// Load chosen or dropped files: each is recognised from its first bytes and read (a
-    /// bundle's directory and small members; logits are only located), then they are handed
-    /// over together, taxonomy first (labels and profiles are read against it), so the board
-    /// never sees half a selection.
+    /// Load chosen or dropped files.
     pub fn load_files(&self, files: Vec<File>) {
+        self.load(
+            files.into_iter().map(PageSource::File).collect(),
+            Origin::User,
+        );
+    }
+
+    fn load(&self, files: Vec<PageSource>, origin: Origin) {
         let this = self.clone();
         wasm_bindgen_futures::spawn_local(async move {
-            let mut known: Vec<(Slot, File, bool)> = Vec::new();
-            for file in files {
-                let name = file.name();
-                let size = file.size().max(0.0) as u64;
-                match read_range(&file, 0, size.min(HEAD)).await {
-                    Ok(head) => match recognise(&name, &head) {
-                        Ok(slot) => known.push((slot, file, is_bundle(&head))),
-                        Err(message) => this.dispatch(Action::Unreadable {
-                            slot: None,
-                            message,
-                        }),
-                    },
-                    Err(e) => this.dispatch(Action::Unreadable {
-                        slot: None,
-                        message: format!("{name}: could not be read: {e}"),
-                    }),
-                }
+            let selection = loading::select(files, origin).await;
+            for (name, plan) in selection.logits {
+                this.register(&name, plan);
             }
-            known.sort_by_key(|(slot, _, _)| *slot);
-            let given: Vec<Slot> = known.iter().map(|(slot, _, _)| *slot).collect();
-            let mut picked: Vec<Picked> = Vec::new();
-            for (slot, file, bundle) in known {
-                let name = file.name();
-                if bundle {
-                    match open_bundle(&file, &given).await {
-                        Ok(b) => picked.push(Picked::Bundle(Box::new(b))),
-                        Err(message) => this.dispatch(Action::Unreadable {
-                            slot: Some(Slot::Logits),
-                            message,
-                        }),
-                    }
-                    continue;
-                }
-                if slot == Slot::Logits {
-                    picked.push(Picked::Npy(file));
-                    continue;
-                }
-                let size = file.size().max(0.0) as u64;
-                match read_range(&file, 0, size).await {
-                    Ok(bytes) => picked.push(Picked::Whole(name, Rc::new(bytes))),
-                    Err(e) => this.dispatch(Action::Unreadable {
-                        slot: Some(slot),
-                        message: format!("{name}: could not be read: {e}"),
-                    }),
-                }
-            }
-            for p in picked {
-                match p {
-                    Picked::Whole(name, bytes) => this.dispatch(Action::File { name, bytes }),
-                    Picked::Npy(file) => {
-                        this.choose_logits(file.name(), Logits::whole(Source::File(file)))
-                    }
-                    Picked::Bundle(b) => this.choose_bundle(*b),
-                }
+            for action in selection.actions {
+                this.dispatch(action);
             }
         });
-    }
-
-    fn choose_logits(&self, name: String, logits: Logits) {
-        let total = self.register(&name, logits);
-        self.dispatch(Action::LogitsChosen { name, total });
-    }
-
-    fn choose_bundle(&self, b: OpenBundle) {
-        let total = self.register(&b.name, b.logits);
-        self.dispatch(Action::BundleChosen {
-            name: b.name,
-            total,
-            keys: b.keys,
-            labels: b.labels,
-            objectness: b.objectness,
-        });
-        for (slot, message) in b.problems {
-            self.dispatch(Action::Unreadable {
-                slot: Some(slot),
-                message,
-            });
-        }
     }
 
     /// Keep a chosen logits file by name, remembering what it replaced (for Cancel), and stop
-    /// any read in flight. Returns the bytes its read will count.
-    fn register(&self, name: &str, logits: Logits) -> u64 {
-        let total = logits.range.1.saturating_sub(logits.range.0);
+    /// any read in flight.
+    fn register(&self, name: &str, plan: LogitsPlan<PageSource>) {
         let previous = self
             .shared
-            .sources
+            .plans
             .borrow_mut()
-            .insert(name.to_string(), logits);
+            .insert(name.to_string(), plan);
         *self.shared.replaced.borrow_mut() = Some((name.to_string(), previous));
         self.abandon();
-        total
     }
 
     /// Stop the read in flight (it dispatches nothing more).
@@ -277,13 +178,21 @@ impl Loader {
     pub fn cancel(&self) {
         self.abandon();
         if let Some((name, previous)) = self.shared.replaced.borrow_mut().take() {
-            let mut sources = self.shared.sources.borrow_mut();
+            let mut plans = self.shared.plans.borrow_mut();
             match previous {
-                Some(s) => sources.insert(name, s),
-                None => sources.remove(&name),
+                Some(s) => plans.insert(name, s),
+                None => plans.remove(&name),
             };
         }
         self.dispatch(Action::LogitsCancelled);
+    }
+
+    /// A slot's remove control: a removed logits file's read stops.
+    pub fn remove(&self, slot: Slot) {
+        if slot == Slot::Logits {
+            self.abandon();
+        }
+        self.dispatch(Action::Remove(slot));
     }
 
     /// How long the last complete logits read took, in milliseconds.
@@ -299,10 +208,12 @@ impl Loader {
         let Some(key) = board.wanted_ingest() else {
             return;
         };
-        let (Some(name), Some((_, tax))) = (board.logits.clone(), board.taxonomy.clone()) else {
+        let (Some(logits), Some(tax)) = (board.logits.clone(), board.taxonomy.clone()) else {
             return;
         };
-        let source = self.shared.sources.borrow().get(&name).cloned();
+        let name = logits.name;
+        let tax = tax.value;
+        let plan = self.shared.plans.borrow().get(&name).cloned();
         let ticket = self.shared.ticket.get().wrapping_add(1);
         self.shared.ticket.set(ticket);
         self.shared.running.set(true);
@@ -310,15 +221,22 @@ impl Loader {
         wasm_bindgen_futures::spawn_local(async move {
             let started = browser::now();
             browser::mark("hedgerow:logits-read-start");
-            let result = match source {
-                Some(logits) => this.stream(&logits, &name, &tax, &key, ticket).await,
-                None => Some(Err(problem(
+            let mut progress = ReadProgress {
+                loader: &this,
+                ticket,
+            };
+            let result = match plan {
+                Some(plan) => loading::stream(&plan, &tax, &key, CHUNK, &mut progress).await,
+                None => Some(Err(Error::new(
                     &name,
                     Location::default(),
-                    "the file to read",
-                    "a file chosen in this page",
-                    "it is no longer available: choose it again",
-                ))),
+                    ErrorKind::Invalid {
+                        what: "the file to read".into(),
+                        expected: "a file chosen in this page".into(),
+                        found: "it is no longer available: choose it again".into(),
+                    },
+                )
+                .into())),
             };
             // `None`: abandoned (cancelled, or another file chosen meanwhile).
             let Some(result) = result else { return };
@@ -334,154 +252,6 @@ impl Loader {
             this.dispatch(Action::LogitsDone { key, result });
         });
     }
-
-    async fn stream(
-        &self,
-        logits: &Logits,
-        name: &str,
-        tax: &Taxonomy,
-        key: &IngestKey,
-        ticket: u64,
-    ) -> Option<Result<Ingested, Errors>> {
-        let live = || self.shared.ticket.get() == ticket;
-        let temps = Temperatures(key.temperatures.clone());
-        let mut reader = match &logits.member {
-            None => LogitsFeed::npy(name, tax, &temps),
-            Some((bundle, member)) => match LogitsFeed::member(bundle, member, tax, &temps) {
-                Ok(feed) => feed,
-                Err(e) => return Some(Err(e)),
-            },
-        };
-        let (start, stop) = logits.range;
-        let total = stop.saturating_sub(start);
-        self.dispatch(Action::LogitsProgress { done: 0 });
-        let mut done = 0;
-        let mut next = Some(logits.source.start_read(start, start + CHUNK.min(total)));
-        while done < total {
-            let end = (done + CHUNK).min(total);
-            let chunk = match next.take() {
-                Some(read) => read.bytes().await,
-                None => Ok(Vec::new()),
-            };
-            // The browser reads the next chunk while this one is decoded.
-            if end < total {
-                next = Some(
-                    logits
-                        .source
-                        .start_read(start + end, start + (end + CHUNK).min(total)),
-                );
-            }
-            if !live() {
-                return None;
-            }
-            let chunk = match chunk {
-                Ok(c) => c,
-                Err(e) => {
-                    return Some(Err(problem(
-                        name,
-                        Location::byte(start + done),
-                        "reading the file",
-                        "its bytes",
-                        &e,
-                    )))
-                }
-            };
-            if let Err(e) = reader.feed(tax, &chunk) {
-                return Some(Err(e));
-            }
-            done = end;
-            self.dispatch(Action::LogitsProgress { done });
-            next_tick().await;
-            if !live() {
-                return None;
-            }
-        }
-        Some(reader.finish(tax))
-    }
-}
-
-/// Read a bundle's directory from its tail, locate its `logits` member and read the small
-/// members whole (unless `given` holds their slot: files chosen alongside win). An error is
-/// the whole bundle's (shown beside the logits); a small member's problem is kept for its slot.
-async fn open_bundle(file: &File, given: &[Slot]) -> Result<OpenBundle, String> {
-    let name = file.name();
-    let len = file.size().max(0.0) as u64;
-    let read = |start: u64, end: u64| {
-        let name = name.clone();
-        async move {
-            read_range(file, start, end)
-                .await
-                .map_err(|e| format!("{name}: could not be read: {e}"))
-        }
-    };
-    let (a, z) = Bundle::tail(len);
-    let tail = read(a, z).await?;
-    let (ds, de) = Bundle::directory(&name, &tail, len)?;
-    let bundle = Bundle::open(&name, len, &read(ds, de).await?)?;
-    let data_range = |m: npz::Member| {
-        let bundle = &bundle;
-        async move {
-            let local = read(m.local_header, m.local_header + npz::LOCAL_HEADER_BYTES).await?;
-            bundle.data_range(&m, &local)
-        }
-    };
-    let member = bundle.member("logits").cloned().ok_or("no logits member")?;
-    let range = data_range(member.clone()).await?;
-    // The small members are capped by the logits' row count, read from the member's header;
-    // without a readable header they are not read (the logits' own read reports why).
-    let prefix = read(range.0, range.1.min(range.0 + npz::PEEK_BYTES)).await?;
-    let rows = bundle.logits_rows(&member, &prefix).ok();
-    let mut problems = Vec::new();
-    let mut small = Vec::new();
-    for (slot, key) in [(Slot::Labels, "labels"), (Slot::Objectness, "objectness")] {
-        let (m, rows) = match (bundle.member(key), rows) {
-            (Some(m), Some(rows)) if !given.contains(&slot) => (m.clone(), rows),
-            _ => {
-                small.push(None);
-                continue;
-            }
-        };
-        let bytes = match data_range(m.clone()).await {
-            Ok((s, e)) => match read(s, e).await {
-                Ok(data) => bundle.inflate(&m, &data, rows),
-                Err(e) => Err(e),
-            },
-            Err(e) => Err(e),
-        };
-        match bytes {
-            Ok(b) => small.push(Some(Rc::new(b))),
-            Err(message) => {
-                problems.push((slot, message));
-                small.push(None);
-            }
-        }
-    }
-    let mut small = small.into_iter();
-    Ok(OpenBundle {
-        keys: bundle.keys(),
-        logits: Logits {
-            source: Source::File(file.clone()),
-            range,
-            member: Some((name.clone(), member)),
-        },
-        labels: small.next().flatten(),
-        objectness: small.next().flatten(),
-        problems,
-        name,
-    })
-}
-
-fn problem(file: &str, at: Location, what: &str, expected: &str, found: &str) -> Errors {
-    Error::new(
-        file,
-        at,
-        ErrorKind::Invalid {
-            what: what.into(),
-            expected: expected.into(),
-            found: found.into(),
-        },
-    )
-    .into()
 }
 
 /// The loader of the page. Call once, at the root, with the board's reducer handle.

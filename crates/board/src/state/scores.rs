@@ -1,0 +1,184 @@
+//! The scores: metrics, the shared-threshold curve and the focused depth's sweep, all from the
+//! active batch's stored paths (a threshold change never recomputes a softmax), with the caches
+//! that keep a slider drag to the rows that flip.
+
+use std::rc::Rc;
+
+use hedgerow_core::{CurveIndex, DepthDrag, Policy, Rule};
+
+use super::Board;
+use crate::charts::{StopView, TradePoint, TradeoffView};
+
+/// The chart's curve keeps a point once precision or specificity moved by this much: finer
+/// than a pixel at any sensible chart size, and a million-row curve stays a few thousand points.
+const CURVE_RESOLUTION: f64 = 1.0 / 2000.0;
+
+#[derive(Debug, Clone, PartialEq)]
+struct SweepKey {
+    depth: usize,
+    generation: usize,
+    rule: Rule,
+    policy: Policy,
+    thresholds: Vec<u64>,
+}
+
+/// What the scores keep between actions, keyed on what they were computed for.
+#[derive(Debug, Clone, Default)]
+pub struct Caches {
+    curve_key: Option<(Rule, u64, Policy, usize)>,
+    curve_index: Option<(usize, Rule, Rc<CurveIndex>)>,
+    sweep_key: Option<SweepKey>,
+    /// The focused depth's drag index: shared by the clones of one board (replacing or moving
+    /// it changes no field an older board shows).
+    drag: Rc<std::cell::RefCell<Option<DepthDrag>>>,
+}
+
+impl Board {
+    /// Recompute everything shown from the active batch (never the softmax).
+    pub(crate) fn rescore(&mut self) {
+        let Some(a) = self.active.clone() else {
+            self.metrics = None;
+            return;
+        };
+        if self.settings.thresholds.validate().is_err() {
+            return;
+        }
+        let object = if a.batch.has_objectness() {
+            self.settings.thresholds.object
+        } else {
+            0.0
+        };
+        let curve_key = (
+            self.settings.rule,
+            object.to_bits(),
+            self.settings.policy,
+            self.generation,
+        );
+        if self.caches.curve_key != Some(curve_key) {
+            // Breakpoints are sorted once per (batch, rule); the object threshold and the
+            // policy only re-sweep them.
+            let index = match &self.caches.curve_index {
+                Some((g, rule, index)) if *g == self.generation && *rule == self.settings.rule => {
+                    index.clone()
+                }
+                _ => {
+                    let index = Rc::new(CurveIndex::new(&a.taxonomy, &a.batch, self.settings.rule));
+                    self.caches.curve_index =
+                        Some((self.generation, self.settings.rule, index.clone()));
+                    index
+                }
+            };
+            self.curve = Rc::new(index.sweep_within(
+                &a.taxonomy,
+                &a.batch,
+                object,
+                self.settings.policy,
+                CURVE_RESOLUTION,
+            ));
+            self.caches.curve_key = Some(curve_key);
+        }
+        let depth = self.focus.clamp(1, a.taxonomy.max_depth().max(1));
+        let mut others: Vec<u64> = self
+            .settings
+            .thresholds
+            .depths
+            .iter()
+            .map(|t| t.to_bits())
+            .collect();
+        if let Some(x) = others.get_mut(depth - 1) {
+            *x = 0;
+        }
+        others.push(object.to_bits());
+        others.extend(
+            self.settings
+                .thresholds
+                .nodes
+                .iter()
+                .flat_map(|&(v, t)| [v as u64, t.to_bits()]),
+        );
+        let key = SweepKey {
+            depth,
+            generation: self.generation,
+            rule: self.settings.rule,
+            policy: self.settings.policy,
+            thresholds: others,
+        };
+        let t = self.settings.thresholds.at_depth(depth);
+        let mut drag = self.caches.drag.borrow_mut();
+        match drag.as_mut() {
+            // Only the focused depth moved: re-score just the rows that flip.
+            Some(d) if self.caches.sweep_key.as_ref() == Some(&key) && d.depth() == depth => {
+                self.metrics = Some(d.set(&a.taxonomy, &a.batch, t));
+            }
+            _ => {
+                // Exact: one breakpoint per row that reaches the depth (not a sampled grid).
+                let mut d = DepthDrag::new(&a.taxonomy, &a.batch, &self.settings, depth);
+                let points = d
+                    .sweep_within(&a.taxonomy, &a.batch, CURVE_RESOLUTION)
+                    .into_iter()
+                    .filter_map(|p| {
+                        Some(TradePoint {
+                            threshold: p.threshold,
+                            specificity: p.specificity?,
+                            precision: p.precision?,
+                        })
+                    })
+                    .collect();
+                self.sweep = Rc::new(points);
+                self.caches.sweep_key = Some(key);
+                self.metrics = Some(d.set(&a.taxonomy, &a.batch, t));
+                *drag = Some(d);
+            }
+        }
+    }
+
+    /// Chart 1's data.
+    pub fn tradeoff_view(&self) -> TradeoffView {
+        let curve = self
+            .curve
+            .iter()
+            .filter_map(|p| {
+                Some(TradePoint {
+                    threshold: p.threshold,
+                    specificity: p.specificity?,
+                    precision: p.precision?,
+                })
+            })
+            .collect();
+        let current = self.metrics.as_ref().and_then(|m| {
+            Some(TradePoint {
+                threshold: f64::NAN,
+                specificity: m.specificity?,
+                precision: m.precision?,
+            })
+        });
+        let sweep = (!self.sweep.is_empty()).then(|| (self.focus, (*self.sweep).clone()));
+        TradeoffView {
+            curve,
+            current,
+            sweep,
+            rule: self.settings.rule.as_str().to_string(),
+        }
+    }
+
+    /// Chart 2's data.
+    pub fn stop_view(&self) -> StopView {
+        let shares = self
+            .metrics
+            .as_ref()
+            .map(|m| {
+                m.stop_outcome
+                    .iter()
+                    .map(|o| {
+                        (
+                            o.correct.unwrap_or(0.0),
+                            o.unverifiable.unwrap_or(0.0),
+                            o.wrong.unwrap_or(0.0),
+                        )
+                    })
+                    .collect()
+            })
+            .unwrap_or_default();
+        StopView { shares }
+    }
+}
