@@ -79,7 +79,8 @@ fn cases() -> Vec<Case> {
         case("threshold below 0", base(), &["--thresholds", "-0.1"], &["--thresholds: threshold for depth 1 -0.1: expected a number in [0, 1]"]),
         case("threshold not a number", base(), &["--thresholds", "0.5,high"], &["--thresholds: expected numbers separated by commas, found `high`"]),
         case("object threshold above 1", base(), &["--object-threshold", "2"], &["object threshold 2: expected a number in [0, 1]"]),
-        case("temperature zero", base(), &["--temperatures", "1,0"], &["--temperatures: temperature 0: expected a finite number above 0"]),
+        case("temperature zero", base(), &["--temperatures", "1,0"], &["--temperatures: temperature for depth 2 0: expected a number from 0.0001 to 10000"]),
+        case("temperature too small to divide by", base(), &["--temperatures", "1e-310"], &["--temperatures: temperature for depth 1 1e-310: expected a number from 0.0001 to 10000"]),
         case("unknown rule", base(), &["--rule", "greedy"], &["--rule: expected cumulative or conditional, found `greedy`"]),
     ]
 }

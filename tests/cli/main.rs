@@ -5,5 +5,6 @@ mod bad_input;
 mod decode;
 mod happy;
 mod harness;
+mod limits;
 mod readme;
 mod stream;
