@@ -158,8 +158,11 @@ fn check(name: &str, run: &Run, peak: Peak, file_len: u64, message: &str) {
     );
     assert_eq!(run.code, 2, "{name}: {}", run.stderr);
     assert!(run.stderr.contains(message), "{name}: {}", run.stderr);
+    // 0: the refusal was so quick that the process had gone before its first sample (every
+    // millisecond); writing 1.5 GB of inflated bytes takes far longer than that, so a run
+    // that allocated them is always sampled.
     assert!(
-        peak.rss_kib > 0 && peak.rss_kib < MAX_RSS_KIB,
+        peak.rss_kib < MAX_RSS_KIB,
         "{name}: peak RSS {} KiB",
         peak.rss_kib
     );
