@@ -316,7 +316,13 @@ mod tests {
     fn the_lower_bound_is_where_the_test_starts_to_reject() {
         // At the bound the p-value equals 1 − confidence; just above it the test no longer
         // rejects, just below it does.
-        for (k, n) in [(9u64, 10u64), (90, 100), (900, 1000), (450_000, 500_000), (1, 1)] {
+        for (k, n) in [
+            (9u64, 10u64),
+            (90, 100),
+            (900, 1000),
+            (450_000, 500_000),
+            (1, 1),
+        ] {
             let lb = clopper_pearson_lower(k, n, 0.9).expect("n > 0");
             let p = binomial_upper_tail(k, n, lb);
             assert!((p - 0.1).abs() < 1e-9, "{k}/{n}: p-value at the bound {p}");
@@ -327,7 +333,14 @@ mod tests {
 
     #[test]
     fn quantiles_invert_the_incomplete_beta() {
-        for (a, b) in [(0.5, 0.5), (1.0, 1.0), (3.0, 7.0), (263.0, 1.0), (1e5, 2e4), (2e6, 3e5)] {
+        for (a, b) in [
+            (0.5, 0.5),
+            (1.0, 1.0),
+            (3.0, 7.0),
+            (263.0, 1.0),
+            (1e5, 2e4),
+            (2e6, 3e5),
+        ] {
             for q in [1e-12, 0.025, 0.1, 0.5, 0.9, 0.975] {
                 let x = beta_quantile(a, b, q);
                 let (lower, _) = beta_tails(a, b, x);
