@@ -180,7 +180,7 @@ fn a_broken_file_shows_its_error_and_keeps_the_batch() {
     // Not a file the page knows.
     shell.give(&mut b, &[("notes.txt", b"hello\n")]);
     assert!(
-        b.errors[&Slot::Other][0].starts_with("notes.txt: file type: expected a .npy array"),
+        b.errors[&Slot::Other][0].starts_with("notes.txt: not recognised: expected a .npy array"),
         "{:?}",
         b.errors
     );

@@ -96,7 +96,7 @@ fn not_recognised(file: &str, expected: &str, found: String) -> Error {
         file,
         Location::default(),
         ErrorKind::Invalid {
-            what: "file type".into(),
+            what: "not recognised".into(),
             expected: expected.into(),
             found,
         },
@@ -191,7 +191,7 @@ pub fn recognise(name: &str, head: &[u8]) -> Result<Recognised, Error> {
             name,
             "a .npy array, an .npz bundle, a taxonomy (CSV with id,parent columns or a JSON array), labels (CSV with a label column) or a profile (JSON object)",
             format!(
-                "the first line `{}`",
+                "the first line \"{}\"",
                 first.chars().take(80).collect::<String>()
             ),
         ))
@@ -687,7 +687,7 @@ mod tests {
         let e = given_as("t.csv", b"id,parent\n", Kind::Labels).err();
         assert_eq!(
             e.map(|e| e.to_string()).as_deref(),
-            Some("t.csv: file type: expected a labels file, found `a taxonomy file`")
+            Some("t.csv: not recognised: expected a labels file, found `a taxonomy file`")
         );
         assert_eq!(given_as("t.csv", b"what,ever\n", Kind::Labels), Ok(None));
         assert!(given_as("l.csv", b"label\n", Kind::Labels).is_ok_and(|r| r.is_some()));
