@@ -4,4 +4,5 @@
 mod bad_input;
 mod happy;
 mod harness;
+mod nodes;
 mod readme;
