@@ -4,6 +4,7 @@
 //! aside, errors beside their file with the batch kept, every control re-scoring through the
 //! engine, profiles and stored settings, `.npz` bundles.
 
+mod overrides;
 mod shell;
 
 use std::rc::Rc;
@@ -202,7 +203,21 @@ fn labels_of_the_wrong_size_are_refused_and_the_batch_is_kept() {
         ["short.csv: 100 rows, but the logits have 20,000 rows: not used"]
     );
     assert_eq!(b.metrics, kept, "the batch in use is kept");
-    assert!(b.labels.is_none(), "the refused file is not staged");
+    assert_eq!(
+        b.labels.as_ref().map(|l| (l.name.as_str(), l.origin)),
+        Some(("labels.csv", Origin::Demo)),
+        "the refused file is not staged: the labels it was to replace stay in their slot"
+    );
+    assert!(
+        b.notes[&Slot::Labels].starts_with("labels.csv: 20,000 rows"),
+        "{:?}",
+        b.notes
+    );
+    assert_eq!(
+        b.staging_line(),
+        None,
+        "the staged files are the batch in use"
+    );
     assert!(b.set_aside.is_empty(), "{:?}", b.set_aside);
     // The same for objectness.
     let mut o = hedgerow_core::npy::header_bytes("<f4", &[3], false);
@@ -215,6 +230,50 @@ fn labels_of_the_wrong_size_are_refused_and_the_batch_is_kept() {
         ["o3.npy: 3 rows, but the logits have 20,000 rows: not used"]
     );
     assert_eq!(b.metrics, kept);
+    assert_eq!(
+        b.objectness.as_ref().map(|o| (o.name.as_str(), o.origin)),
+        Some(("objectness.npy", Origin::Demo))
+    );
+    assert_eq!(b.staging_line(), None);
+}
+
+#[test]
+fn a_refused_file_leaves_the_file_before_it_in_its_slot() {
+    // Objectness of the wrong size alone: the staged files without it would be a whole batch,
+    // which must not replace the one in use.
+    let (mut b, mut shell) = demo_board();
+    b.apply(Action::SetObject(0.7));
+    let kept = b.metrics.clone();
+    let generation = b.generation;
+    let mut o = hedgerow_core::npy::header_bytes("<f4", &[3], false);
+    for v in [0.5f32, 0.25, 1.0] {
+        o.extend(v.to_le_bytes());
+    }
+    shell.give(&mut b, &[("o3.npy", &o)]);
+    assert_eq!(
+        b.errors[&Slot::Objectness],
+        ["o3.npy: 3 rows, but the logits have 20,000 rows: not used"]
+    );
+    assert_eq!(b.generation, generation, "the batch in use is kept");
+    assert!(b.active.as_ref().is_some_and(|a| a.batch.has_objectness()));
+    assert_eq!(b.metrics, kept);
+    assert_eq!(
+        b.notes[&Slot::Objectness],
+        "objectness.npy: 20,000 rows",
+        "the slot still says what it holds"
+    );
+    assert_eq!(b.staging_line(), None);
+    // Labels that name no node of the taxonomy: refused, the demo's stay staged, and a new
+    // batch still forms with them (here: without objectness).
+    shell.give(&mut b, &[("labels-bad.csv", b"label\nglass\nnot-a-node\n")]);
+    assert!(b.errors.contains_key(&Slot::Labels), "{:?}", b.errors);
+    assert_eq!(b.labels.as_ref().map(|l| l.origin), Some(Origin::Demo));
+    assert_eq!(b.metrics, kept);
+    b.apply(Action::Remove(Slot::Objectness));
+    let a = b.active.as_ref().expect("a whole batch");
+    assert!(!a.batch.has_objectness());
+    assert_eq!(a.names[&Slot::Labels], "labels.csv");
+    check_against_engine(&b);
 }
 
 #[test]
@@ -390,6 +449,7 @@ fn stored_settings_restore_and_temperatures_ask_for_a_new_read() {
         thresholds: vec![0.9, 0.8],
         temperatures: vec![1.0, 1.5],
         unverifiable: Policy::Exclude,
+        nodes: Default::default(),
     };
     let text = serde_json::to_string(&stored).expect("json");
     b.apply(Action::Restore(serde_json::from_str(&text).expect("back")));

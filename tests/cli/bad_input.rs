@@ -90,41 +90,57 @@ fn cases() -> Vec<Case> {
     ]
 }
 
+/// Every case through `evaluate`, and through `decode` (which streams its output and must
+/// still write nothing, to standard output or to `--out`, when an input is bad).
 #[test]
 fn every_bad_input_is_located_and_exits_2() {
     let mut failures = Vec::new();
-    for c in cases() {
-        let s = Scratch::new("bad");
-        for (name, bytes) in &c.files {
-            s.write(name, bytes);
-        }
-        let mut args = vec![
-            "evaluate",
-            "--taxonomy",
-            "t.csv",
-            "--logits",
-            "l.npy",
-            "--labels",
-            "y.csv",
-        ];
-        args.extend(&c.extra);
-        let run = hedgerow(&s.dir, &args);
-        if run.code != 2 {
-            failures.push(format!(
-                "{}: exit {} (expected 2); stderr: {}",
-                c.name, run.code, run.stderr
-            ));
-        }
-        for want in &c.expect {
-            if !run.stderr.contains(want) {
+    for command in ["evaluate", "decode"] {
+        for c in cases() {
+            let s = Scratch::new("bad");
+            for (name, bytes) in &c.files {
+                s.write(name, bytes);
+            }
+            let mut args = vec![
+                command,
+                "--taxonomy",
+                "t.csv",
+                "--logits",
+                "l.npy",
+                "--labels",
+                "y.csv",
+            ];
+            args.extend(&c.extra);
+            let name = format!("{command}: {}", c.name);
+            let run = hedgerow(&s.dir, &args);
+            if run.code != 2 {
                 failures.push(format!(
-                    "{}: stderr lacks «{want}»; it was:\n{}",
-                    c.name, run.stderr
+                    "{name}: exit {} (expected 2); stderr: {}",
+                    run.code, run.stderr
                 ));
             }
-        }
-        if !run.stdout.is_empty() {
-            failures.push(format!("{}: printed to stdout: {}", c.name, run.stdout));
+            for want in &c.expect {
+                if !run.stderr.contains(want) {
+                    failures.push(format!(
+                        "{name}: stderr lacks «{want}»; it was:\n{}",
+                        run.stderr
+                    ));
+                }
+            }
+            if !run.stdout.is_empty() {
+                failures.push(format!("{name}: printed to stdout: {}", run.stdout));
+            }
+            if command == "decode" {
+                args.extend(["--out", "d.csv"]);
+                let run = hedgerow(&s.dir, &args);
+                if run.code != 2 || s.dir.join("d.csv").exists() {
+                    failures.push(format!(
+                        "{name} --out: exit {}, d.csv left: {}",
+                        run.code,
+                        s.dir.join("d.csv").exists()
+                    ));
+                }
+            }
         }
     }
     assert!(failures.is_empty(), "{}", failures.join("\n"));

@@ -120,10 +120,11 @@ fn decode_and_curve_write_csv() {
     assert_eq!(hedgerow(&s.dir, &args).code, 0);
     let text = std::fs::read_to_string(s.dir.join("d.csv")).expect("decode out");
     let lines: Vec<&str> = text.lines().collect();
-    assert_eq!(lines[0], "row,label,predicted,depth,probability,outcome,node_1,conditional_1,cumulative_1,node_2,conditional_2,cumulative_2");
+    assert_eq!(lines[0], "row,predicted,depth,probability,abstained,node_1,conditional_1,cumulative_1,node_2,conditional_2,cumulative_2,label,outcome");
     assert_eq!(lines.len(), 5);
-    assert!(lines[2].contains(",abstained,"), "{}", lines[2]);
-    assert!(lines[3].contains(",rejected,"), "{}", lines[3]);
+    assert!(lines[2].starts_with("1,,,0.4"), "{}", lines[2]);
+    assert!(lines[2].ends_with(",z,abstained"), "{}", lines[2]);
+    assert!(lines[3].ends_with(",,rejected"), "{}", lines[3]);
     let mut args = vec!["curve"];
     args.extend(INPUT);
     let run = hedgerow(&s.dir, &args);
@@ -213,5 +214,30 @@ fn npz_bundles_evaluate_like_separate_files() {
         out.stderr.contains("--labels: expected a labels file"),
         "{}",
         out.stderr
+    );
+}
+
+#[test]
+fn help_says_specificity_is_information_gain() {
+    // Most readers take the bare word for the true-negative rate.
+    let s = Scratch::new("help");
+    for args in [
+        &["--help"][..],
+        &["evaluate", "--help"],
+        &["curve", "--help"],
+    ] {
+        let run = hedgerow(&s.dir, args);
+        assert_eq!(run.code, 0, "{args:?}: {}", run.stderr);
+        assert!(
+            run.stdout.contains("specificity (information gain)"),
+            "{args:?}: {}",
+            run.stdout
+        );
+    }
+    let run = hedgerow(&s.dir, &["evaluate", "--help"]);
+    assert!(
+        run.stdout.contains("not the true-negative rate"),
+        "{}",
+        run.stdout
     );
 }

@@ -107,10 +107,22 @@ fn decode_follows_node_thresholds() {
     ];
     let out = run(&s, "decode", &args);
     assert_eq!(out.code, 0, "{}", out.stderr);
-    for line in out.stdout.lines().skip(1) {
+    let mut lines = out.stdout.lines();
+    let header: Vec<&str> = lines.next().unwrap_or("").split(',').collect();
+    let col = |name: &str| {
+        header
+            .iter()
+            .position(|h| *h == name)
+            .unwrap_or_else(|| panic!("no {name} column: {header:?}"))
+    };
+    let (predicted, depth) = (col("predicted"), col("depth"));
+    let mut rows = 0;
+    for line in lines {
         let cells: Vec<&str> = line.split(',').collect();
-        assert_eq!((cells[2], cells[3]), ("", "0"), "{line}");
+        assert_eq!((cells[predicted], cells[depth]), ("", "0"), "{line}");
+        rows += 1;
     }
+    assert_eq!(rows, 6);
 }
 
 #[test]

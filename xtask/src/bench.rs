@@ -567,7 +567,12 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
     println!("\n{report}");
     if opts.write {
         let path = root.join("BENCHMARKS.md");
-        let text = benchmarks_md(&report);
+        // Sections measured by hand (`## …` after the generated part) are kept as they are.
+        let kept = std::fs::read_to_string(&path)
+            .ok()
+            .and_then(|old| old.find("\n## ").map(|at| old[at..].to_string()))
+            .unwrap_or_default();
+        let text = benchmarks_md(&report) + &kept;
         std::fs::write(&path, text).with_context(|| format!("writing {}", path.display()))?;
         eprintln!("bench: wrote {}", path.display());
     }

@@ -14,6 +14,7 @@
 
 mod big;
 mod harness;
+mod journey;
 mod page;
 mod privacy;
 
@@ -90,6 +91,7 @@ impl Test {
 /// Every test, in the order they run.
 fn all_tests() -> Vec<Test> {
     let mut tests = page::tests();
+    tests.extend(journey::tests());
     tests.extend(privacy::tests());
     tests.extend(big::tests());
     tests

@@ -84,6 +84,8 @@ pub struct Board {
     /// The slots as they were before a new logits file was chosen, put back by
     /// `LogitsCancelled`.
     before_choice: Option<Box<Snapshot>>,
+    /// What the file being staged replaced, until the batch rules have judged it.
+    replaced: Option<staging::Replaced>,
     /// A profile made for the staged taxonomy, applied when its batch becomes active.
     pub pending_profile: Option<PendingProfile>,
     /// Numbers the staged files in the order they were given.
@@ -92,6 +94,9 @@ pub struct Board {
     /// active: a line goes when the batch after the one it led to becomes active.
     aside_made: BTreeMap<Slot, u64>,
     last_activation: u64,
+    /// The per-node overrides by node id, and the taxonomy they are placed on (see
+    /// `crate::overrides`).
+    pub(crate) node_ids: Option<crate::overrides::NodeIds>,
 }
 
 impl Board {
@@ -128,6 +133,7 @@ impl Board {
             thresholds: self.settings.thresholds.depths.clone(),
             temperatures: self.temperatures.0.clone(),
             unverifiable: self.settings.policy,
+            nodes: self.stored_nodes(),
         }
     }
 
@@ -238,8 +244,13 @@ impl Board {
                 {
                     self.temperatures = Temperatures(stored.temperatures);
                 }
+                self.node_ids = Some(crate::overrides::NodeIds::waiting(stored.nodes));
                 self.fit_depths();
                 self.rescore();
+            }
+            Action::Reset => {
+                self.settings.thresholds.nodes.clear();
+                self.apply(Action::Restore(Stored::default()));
             }
             Action::ClearErrors => {
                 self.errors.clear();
@@ -251,6 +262,7 @@ impl Board {
     /// Make the per-depth list exactly D long (repeating the last value), so every depth has
     /// its own control.
     pub(crate) fn fit_depths(&mut self) {
+        self.place_nodes();
         let d = self.depth();
         if d == 0 {
             return;

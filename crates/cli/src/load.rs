@@ -34,11 +34,11 @@ pub struct Loaded {
 /// Bytes per read of the logits file: rows are decoded chunk by chunk and the chunk dropped.
 const CHUNK: usize = 1 << 20;
 
-fn display(path: &Path) -> String {
+pub(crate) fn display(path: &Path) -> String {
     path.display().to_string()
 }
 
-fn read(path: &Path) -> Result<Vec<u8>, Failure> {
+pub(crate) fn read(path: &Path) -> Result<Vec<u8>, Failure> {
     std::fs::read(path)
         .map_err(|e| Failure::Input(vec![format!("{}: cannot read: {e}", display(path))]))
 }
@@ -115,7 +115,7 @@ impl Loaded {
 }
 
 /// The value, or its problems noted so every input's problems are reported together.
-fn keep<T>(problems: &mut Vec<String>, r: hedgerow_core::Result<T>) -> Option<T> {
+pub(crate) fn keep<T>(problems: &mut Vec<String>, r: hedgerow_core::Result<T>) -> Option<T> {
     match r {
         Ok(v) => Some(v),
         Err(e) => {
@@ -125,7 +125,7 @@ fn keep<T>(problems: &mut Vec<String>, r: hedgerow_core::Result<T>) -> Option<T>
     }
 }
 
-fn one(e: hedgerow_core::Error) -> Failure {
+pub(crate) fn one(e: hedgerow_core::Error) -> Failure {
     Failure::from(Errors::from(e))
 }
 
@@ -320,7 +320,10 @@ fn node_threshold(tax: &Taxonomy, text: &str) -> Result<(u32, f64), String> {
 }
 
 /// Settings from the profile (if any), overridden by explicit flags.
-fn settings(tax: &Taxonomy, args: &SettingArgs) -> Result<(Settings, Temperatures), Failure> {
+pub(crate) fn settings(
+    tax: &Taxonomy,
+    args: &SettingArgs,
+) -> Result<(Settings, Temperatures), Failure> {
     let (mut settings, mut temps) = match &args.profile {
         Some(path) => {
             let profile = Profile::from_json(&read(path)?, &display(path), tax)?;

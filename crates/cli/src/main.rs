@@ -1,6 +1,7 @@
 //! `hedgerow`: the command line over hedgerow-core: evaluate, decode, curve, nodes and profile.
 
 mod bench;
+mod decode;
 mod load;
 mod nodes;
 mod report;
@@ -10,7 +11,7 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 use clap::{Args, Parser, Subcommand};
-use hedgerow_core::{decode_row, evaluate, exact_curve_for, Profile};
+use hedgerow_core::{evaluate, exact_curve_for, Profile};
 
 use crate::load::{Failure, Loaded};
 
@@ -27,7 +28,12 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
-    /// Score a batch: counts, precision, specificity, reward, stop shares, hierarchical P/R/F1.
+    /// Score a batch: counts, precision, specificity (information gain), reward, stop shares,
+    /// hierarchical P/R/F1.
+    ///
+    /// Specificity here is the mean normalised information gain of the predicted node (0 at the
+    /// root, 1 at a leaf), not the true-negative rate; reward counts it for correct predictions
+    /// only.
     Evaluate {
         #[command(flatten)]
         input: Input,
@@ -37,17 +43,27 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
-    /// Write one CSV row per input row: prediction, depth, probability, outcome and full path.
+    /// Decode every row as it is read (production: labels optional): prediction, depth,
+    /// probability and full path; label and outcome when labels are given.
     Decode {
         #[command(flatten)]
         input: Input,
         #[command(flatten)]
         settings: SettingArgs,
+        /// Decode without objectness (P(root) = 1, no object threshold) even though the
+        /// profile was scored with it; an `objectness` array in the bundle is ignored.
+        #[arg(long, conflicts_with = "objectness")]
+        no_objectness: bool,
+        /// Output format: csv (a header, then one row per input row) or jsonl (one JSON
+        /// object per line).
+        #[arg(long, value_enum, default_value_t = decode::Format::Csv)]
+        format: decode::Format,
         /// Output file (default: standard output).
         #[arg(long)]
         out: Option<PathBuf>,
     },
-    /// Write the exact precision/specificity curve for one threshold shared by all depths (CSV).
+    /// Write the exact precision/specificity (information gain) curve for one threshold shared
+    /// by all depths (CSV).
     ///
     /// Every distinct operating point as the shared threshold goes from 1 to 0, the object
     /// threshold, rule and policy held (--thresholds is what is swept, so it is not used). Nodes
@@ -113,7 +129,8 @@ pub struct Input {
     #[arg(long)]
     pub logits: PathBuf,
     /// Labels: CSV with a `label` column (node id, empty = background) or .npy of column
-    /// indices (-1 = background) or of id strings. Optional when the bundle holds `labels`.
+    /// indices (-1 = background) or of id strings. Optional when the bundle holds `labels`,
+    /// and for `decode`.
     #[arg(long)]
     pub labels: Option<PathBuf>,
     /// Objectness: .npy of shape (rows,), probabilities in [0, 1] (or `objectness` in the bundle).
@@ -187,15 +204,16 @@ fn run(cli: Cli) -> Result<(), Failure> {
         Command::Decode {
             input,
             settings,
+            no_objectness,
+            format,
             out,
-        } => {
-            let loaded = Loaded::load(&input, &settings)?;
-            let bytes = report::decode_csv(&loaded, |r, th| {
-                decode_row(&loaded.taxonomy, &loaded.batch, &loaded.settings, th, r)
-            })
-            .map_err(Failure::Other)?;
-            write_out(out.as_ref(), &bytes)
-        }
+        } => decode::run(&decode::Request {
+            input: &input,
+            settings: &settings,
+            no_objectness,
+            out: out.as_ref(),
+            format,
+        }),
         Command::Curve {
             input,
             settings,

@@ -1,8 +1,8 @@
-//! Output formats: the readable table, the decode CSV and the curve CSV.
+//! Output formats: the readable table and the curve CSV (decode writes its rows itself).
 
 use std::fmt::Write as _;
 
-use hedgerow_core::{CurvePoint, Metrics, RowDecode};
+use hedgerow_core::{CurvePoint, Metrics};
 
 use crate::load::Loaded;
 
@@ -90,62 +90,6 @@ pub fn table(loaded: &Loaded, m: &Metrics) -> String {
         );
     }
     out
-}
-
-/// One row per input row; per depth d the node, its conditional and its cumulative probability.
-pub fn decode_csv(
-    loaded: &Loaded,
-    decode: impl Fn(usize, &[f64]) -> RowDecode,
-) -> anyhow::Result<Vec<u8>> {
-    let tax = &loaded.taxonomy;
-    let thresholds = loaded.settings.thresholds.resolve(tax);
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let mut header = vec![
-        "row".to_string(),
-        "label".into(),
-        "predicted".into(),
-        "depth".into(),
-        "probability".into(),
-        "outcome".into(),
-    ];
-    for d in 1..=tax.max_depth() {
-        header.extend([
-            format!("node_{d}"),
-            format!("conditional_{d}"),
-            format!("cumulative_{d}"),
-        ]);
-    }
-    w.write_record(&header)?;
-    for r in 0..loaded.batch.len() {
-        let row = decode(r, &thresholds);
-        let label = loaded.batch.label(r);
-        let mut rec = vec![
-            r.to_string(),
-            tax.id(label).to_string(),
-            row.predicted
-                .map(|v| tax.id(v).to_string())
-                .unwrap_or_default(),
-            if row.predicted.is_some() {
-                row.depth.to_string()
-            } else {
-                String::new()
-            },
-            row.probability.to_string(),
-            row.outcome.as_str().to_string(),
-        ];
-        for d in 0..tax.max_depth() {
-            match row.path.get(d) {
-                Some(step) => rec.extend([
-                    tax.id(step.node).to_string(),
-                    step.conditional.to_string(),
-                    step.cumulative.to_string(),
-                ]),
-                None => rec.extend([String::new(), String::new(), String::new()]),
-            }
-        }
-        w.write_record(&rec)?;
-    }
-    w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))
 }
 
 pub fn curve_csv(points: &[CurvePoint]) -> anyhow::Result<Vec<u8>> {

@@ -223,6 +223,9 @@ impl Collector {
             self.more += 1;
         }
     }
+    pub fn is_empty(&self) -> bool {
+        self.errors.is_empty() && self.more == 0
+    }
     /// `Err` with everything collected so far (and empties the collector), or `Ok`.
     pub fn finish(&mut self, file: &str) -> Result<()> {
         if self.errors.is_empty() {

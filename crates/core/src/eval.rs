@@ -4,6 +4,8 @@
 use serde::{Deserialize, Serialize};
 
 use crate::batch::Batch;
+pub use crate::decode::Step;
+use crate::decode::{prediction_outcome, Decoder};
 use crate::settings::{Policy, Rule, Settings};
 use crate::taxonomy::{Taxonomy, NONE};
 
@@ -107,44 +109,25 @@ pub fn stop_depth(
     thresholds: &[f64],
     r: usize,
 ) -> Option<usize> {
-    let p_root = batch.root_probability(r);
-    if batch.has_objectness() && p_root < thresholds[tax.root() as usize] {
-        return None;
-    }
-    let leaf = batch.paths().leaf(r);
-    let cond = batch.paths().cond(r);
-    let depth = tax.depth(leaf);
-    let mut p = p_root;
-    for d in 1..=depth {
-        let c = cond[d - 1] as f64;
-        let q = match rule {
-            Rule::Cumulative => {
-                p *= c;
-                p
-            }
-            Rule::Conditional => c,
-        };
-        if q < thresholds[tax.ancestor(leaf, d) as usize] {
-            return Some(d - 1);
-        }
-    }
-    Some(depth)
+    let decoder = Decoder {
+        tax,
+        rule,
+        thresholds,
+        objectness: batch.has_objectness(),
+    };
+    let paths = batch.paths();
+    decoder.stop(batch.root_probability(r), paths.leaf(r), paths.cond(r))
 }
 
 /// Outcome of row `r` stopping at depth `s`.
 #[inline]
 pub(crate) fn outcome_at(batch: &Batch, r: usize, s: usize) -> Outcome {
-    if batch.label(r) == NONE {
-        return Outcome::Wrong;
-    }
-    let a = batch.agree(r);
-    if s <= a {
-        Outcome::Correct
-    } else if a == batch.label_depth(r) {
-        Outcome::Unverifiable
-    } else {
-        Outcome::Wrong
-    }
+    prediction_outcome(
+        batch.label(r) != NONE,
+        s,
+        batch.agree(r),
+        batch.label_depth(r),
+    )
 }
 
 /// Running sums of one evaluation, before they become ratios. All integers: information gain
@@ -416,16 +399,6 @@ pub(crate) fn finish(tax: &Taxonomy, batch: &Batch, settings: &Settings, sums: S
     }
 }
 
-/// One node on a decoded path.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Step {
-    pub node: u32,
-    /// p(node | parent).
-    pub conditional: f64,
-    /// P(node) = P(root) · Π conditionals.
-    pub cumulative: f64,
-}
-
 /// The full decode of one row, for `hedgerow decode`.
 #[derive(Debug, Clone, PartialEq)]
 pub struct RowDecode {
@@ -447,46 +420,30 @@ pub fn decode_row(
     thresholds: &[f64],
     r: usize,
 ) -> RowDecode {
-    let leaf = batch.paths().leaf(r);
-    let cond = batch.paths().cond(r);
-    let p_root = batch.root_probability(r);
-    let mut p = p_root;
-    let path: Vec<Step> = (1..=tax.depth(leaf))
-        .map(|d| {
-            let c = cond[d - 1] as f64;
-            p *= c;
-            Step {
-                node: tax.ancestor(leaf, d),
-                conditional: c,
-                cumulative: p,
-            }
-        })
-        .collect();
-    match stop_depth(tax, batch, settings.rule, thresholds, r) {
-        None => RowDecode {
-            predicted: None,
-            depth: 0,
-            probability: p_root,
-            outcome: if batch.label(r) == NONE {
-                Outcome::Rejected
-            } else {
-                Outcome::Abstained
-            },
-            path,
-        },
-        Some(s) => {
-            let probability = match (s, settings.rule) {
-                (0, _) => p_root,
-                (_, Rule::Cumulative) => path[s - 1].cumulative,
-                (_, Rule::Conditional) => path[s - 1].conditional,
-            };
-            RowDecode {
-                predicted: Some(tax.ancestor(leaf, s)),
-                depth: s,
-                probability,
-                outcome: outcome_at(batch, r, s),
-                path,
-            }
-        }
+    let decoder = Decoder {
+        tax,
+        rule: settings.rule,
+        thresholds,
+        objectness: batch.has_objectness(),
+    };
+    let paths = batch.paths();
+    let mut path = Vec::new();
+    let d = decoder.decide(
+        batch.root_probability(r),
+        paths.leaf(r),
+        paths.cond(r),
+        &mut path,
+    );
+    let outcome = match d.predicted {
+        None if batch.label(r) == NONE => Outcome::Rejected,
+        None => Outcome::Abstained,
+        Some(_) => outcome_at(batch, r, d.depth),
+    };
+    RowDecode {
+        predicted: d.predicted,
+        depth: d.depth,
+        probability: d.probability,
+        outcome,
+        path,
     }
 }

@@ -36,6 +36,7 @@
 
 pub mod batch;
 pub mod curve;
+pub mod decode;
 pub mod drag;
 pub mod error;
 pub mod eval;
@@ -51,6 +52,7 @@ pub mod taxonomy;
 
 pub use batch::{Batch, Labels, Objectness};
 pub use curve::{depth_sweep, exact_curve, exact_curve_for, CurveIndex, CurvePoint};
+pub use decode::{Decision, Decoder, Step};
 pub use drag::DepthDrag;
 pub use error::{Error, ErrorKind, Errors, Location, Result};
 pub use eval::{decode_row, evaluate, Metrics, Outcome, RowDecode};

@@ -174,6 +174,8 @@ pub struct LogitsReader {
     carry: Vec<u8>,
     row_bytes: usize,
     rows_done: u64,
+    /// Rows already handed out by [`LogitsReader::take_paths`].
+    rows_taken: u64,
     data_seen: u64,
     values: Vec<f64>,
     scratch: Vec<f64>,
@@ -194,6 +196,7 @@ impl LogitsReader {
             carry: Vec::new(),
             row_bytes: 0,
             rows_done: 0,
+            rows_taken: 0,
             data_seen: 0,
             values: Vec::new(),
             scratch: Vec::new(),
@@ -212,6 +215,23 @@ impl LogitsReader {
     /// Rows decoded so far.
     pub fn rows_done(&self) -> u64 {
         self.rows_done
+    }
+
+    /// The paths of the rows decoded since the last call, and the index of the first of them,
+    /// so a caller can consume rows as they stream in and hold only one chunk's worth. Rows
+    /// taken here are not in what [`finish`](Self::finish) returns (which still checks the
+    /// whole file). Fortran-order arrays give no rows before `finish`.
+    pub fn take_paths(&mut self) -> (u64, Paths) {
+        let first = self.rows_taken;
+        let fresh = Paths::new(self.paths.width);
+        let paths = std::mem::replace(&mut self.paths, fresh);
+        self.rows_taken += paths.len() as u64;
+        (first, paths)
+    }
+
+    /// Whether a per-value problem (NaN, ±inf) has been found so far; `finish` reports them.
+    pub fn has_errors(&self) -> bool {
+        !self.errors.is_empty()
     }
 
     fn fail(&self, at: Location, kind: ErrorKind) -> Errors {
@@ -468,4 +488,38 @@ pub fn ingest_bytes(
     let mut reader = LogitsReader::new(file, tax, temps);
     reader.feed(tax, bytes)?;
     reader.finish(tax)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn taking_paths_while_feeding_gives_every_row_once_in_order() {
+        let tax = Taxonomy::parse(b"id,parent\nx,\ny,x\nz,x\nw,\n", "t.csv").expect("taxonomy");
+        let rows = 37u64;
+        let mut bytes = npy::header_bytes("<f4", &[rows, 4], false);
+        for i in 0..rows * 4 {
+            bytes.extend(((i * 7 % 11) as f32 - 5.0).to_le_bytes());
+        }
+        let temps = Temperatures::default();
+        let whole = ingest_bytes("l.npy", &tax, &temps, &bytes).expect("whole");
+        let mut reader = LogitsReader::new("l.npy", &tax, &temps);
+        let mut leaves = Vec::new();
+        let mut cond = Vec::new();
+        // 13-byte pieces: rows and the header are split across feeds.
+        for piece in bytes.chunks(13) {
+            reader.feed(&tax, piece).expect("feed");
+            let (first, paths) = reader.take_paths();
+            assert_eq!(first, leaves.len() as u64);
+            leaves.extend_from_slice(paths.leaves());
+            cond.extend_from_slice(paths.cond_all());
+        }
+        assert!(!reader.has_errors());
+        let rest = reader.finish(&tax).expect("finish");
+        assert!(rest.paths.is_empty());
+        assert_eq!(rest.digest, whole.digest);
+        assert_eq!(leaves, whole.paths.leaves());
+        assert_eq!(cond, whole.paths.cond_all());
+    }
 }

@@ -12,10 +12,15 @@
 //!   "node_thresholds": {},
 //!   "temperatures": [1.0],
 //!   "unverifiable": "credit",
+//!   "objectness": true,
 //!   "taxonomy": { "fingerprint": "…", "nodes": 160, "depth": 5 },
 //!   "scored": { "data_fingerprint": "…", "metrics": { … } }
 //! }
 //! ```
+//! `objectness` says whether the batch it was scored on had objectness (so `object_threshold`
+//! took part in the decode); profiles saved before the field existed, and profiles not scored
+//! on a batch, leave it out.
+//!
 //! Thresholds are stored as JSON numbers that round-trip exactly, so loading a profile gives
 //! back bit-identical thresholds and therefore the same decode.
 
@@ -58,6 +63,10 @@ pub struct Profile {
     #[serde(default)]
     pub temperatures: Vec<f64>,
     pub unverifiable: Policy,
+    /// Whether P(root) came from objectness in the batch the profile was scored on (so the
+    /// object threshold applied); `None` when unknown.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub objectness: Option<bool>,
     pub taxonomy: TaxonomyStamp,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub scored: Option<Scored>,
@@ -85,6 +94,7 @@ impl Profile {
                 .collect(),
             temperatures: temperatures.0.clone(),
             unverifiable: settings.policy,
+            objectness: scored.map(|(b, _)| b.has_objectness()),
             taxonomy: TaxonomyStamp {
                 fingerprint: tax.fingerprint().to_string(),
                 nodes: tax.len(),

@@ -1,8 +1,9 @@
 //! The few browser services the page uses, each failing soft: reading byte ranges of a file,
-//! yielding to the event loop, settings in `localStorage`, a download, timing marks. Nothing
-//! here panics; errors come back as text for the page's error area.
+//! yielding to the event loop, settings in `localStorage`, a download, the local time, timing
+//! marks. Nothing here panics; errors come back as text for the page's error area.
 
 use hedgerow_board::state::Stored;
+use hedgerow_board::wording::LocalTime;
 use js_sys::{Array, Promise, Uint8Array};
 use wasm_bindgen::prelude::*;
 use wasm_bindgen::JsCast;
@@ -98,6 +99,18 @@ pub fn download(file_name: &str, mime: &str, text: &str) -> Result<(), String> {
     let _ = window
         .set_timeout_with_callback_and_timeout_and_arguments_0(revoke.unchecked_ref(), 10_000);
     Ok(())
+}
+
+/// The local date and time now, from JavaScript's `Date` (the user's time zone).
+pub fn local_time() -> LocalTime {
+    let now = js_sys::Date::new_0();
+    LocalTime {
+        year: now.get_full_year() as i32,
+        month: now.get_month() + 1,
+        day: now.get_date(),
+        hour: now.get_hours(),
+        minute: now.get_minutes(),
+    }
 }
 
 /// `performance.now()` in milliseconds, or 0.

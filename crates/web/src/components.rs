@@ -10,5 +10,7 @@ pub mod file_picker;
 pub mod files_panel;
 pub mod headline;
 pub mod metric;
+pub mod node_overrides;
 pub mod read_progress;
+pub mod temperature_field;
 pub mod threshold_control;

@@ -30,6 +30,18 @@ pub fn tests() -> Vec<Test> {
             |b, c| Box::pin(other_controls(b, c)),
         ),
         Test::new(
+            "http: a typed threshold outside [0, 1] or not a number says why and changes nothing",
+            |b, c| Box::pin(refused_entries(b, c)),
+        ),
+        Test::new(
+            "http: the figures and labels say what they are (stop here, depths differ, information gain)",
+            |b, c| Box::pin(wording(b, c)),
+        ),
+        Test::new(
+            "http: node overrides from a profile are listed, survive a reload and go with Reset",
+            |b, c| Box::pin(node_overrides(b, c)),
+        ),
+        Test::new(
             "http: a saved profile gives the page's numbers in the CLI",
             |b, c| Box::pin(save_profile(b, c)),
         ),
@@ -410,7 +422,7 @@ async fn wait_focused_row(b: &Browser, id: &str) -> anyhow::Result<()> {
     loop {
         let v = b
             .eval(
-                "const i = document.querySelector('.threshold.focused input[type=number]'); return i ? i.dataset.testid : null;",
+                "const i = document.querySelector('.threshold.focused input.number'); return i ? i.dataset.testid : null;",
                 vec![],
             )
             .await?;
@@ -481,47 +493,371 @@ async fn other_controls(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
         ],
     )?;
     expect_headline(b, &want, "unverifiable exclude").await?;
-    // Out of range is clamped on commit, never an error.
+    // Out of range is not applied (see `refused_entries`): the field goes back to 0.65.
     b.set_value("threshold-depth-1", "7").await?;
+    b.wait_text("threshold-depth-1-error", "why 7 was not applied", |t| {
+        t == "7 is outside [0, 1]: not applied"
+    })
+    .await?;
     let v = value(b, "threshold-depth-1").await?;
     ensure!(
-        v == "1",
+        v == "0.65",
         "threshold-depth-1 shows {v:?} after 7 was entered"
     );
-    let want = expected(
-        c,
-        &[
-            "--object-threshold",
-            "0.7",
-            "--thresholds",
-            "1,0.65",
-            "--unverifiable",
-            "exclude",
-        ],
-    )?;
-    expect_headline(b, &want, "depth 1 clamped to 1").await?;
-    // Reset goes back to the defaults.
+    expect_headline(b, &want, "depth 1 kept at 0.65").await?;
+    // Reset goes back to the defaults, and the message goes with the value it was about.
     b.click("reset-settings").await?;
-    expect_headline(b, &expected(c, &[])?, "after Reset").await
+    expect_headline(b, &expected(c, &[])?, "after Reset").await?;
+    ensure!(
+        b.find_all("threshold-depth-1-error").await?.is_empty(),
+        "the message stays after Reset"
+    );
+    Ok(())
 }
 
-/// Wait for a download to finish in `dir` and return its path.
-async fn wait_download(dir: &Path, name: &str, timeout: Duration) -> anyhow::Result<PathBuf> {
-    let path = dir.join(name);
+/// `hedgerow evaluate --json` with these settings flags, whole.
+fn evaluate_json(c: &Ctx, args: &[&str]) -> anyhow::Result<Value> {
+    let mut all = args.to_vec();
+    all.push("--json");
+    let text = cli(c, "evaluate", &all)?;
+    serde_json::from_str(&text).context("the CLI's JSON")
+}
+
+/// The text of an element (`textContent`, so CSS capitals do not show), or `None` when there
+/// is none.
+async fn content(b: &Browser, id: &str) -> anyhow::Result<Option<String>> {
+    let v = b
+        .eval(
+            "const e = document.querySelector(arguments[0]); return e ? e.textContent : null;",
+            vec![json!(Browser::testid(id))],
+        )
+        .await?;
+    Ok(v.as_str().map(str::to_string))
+}
+
+/// Wait until the element with this `data-testid` is gone.
+async fn wait_gone(b: &Browser, id: &str, what: &str) -> anyhow::Result<()> {
+    let deadline = Instant::now() + b.timeout;
+    while !b.find_all(id).await?.is_empty() {
+        if Instant::now() > deadline {
+            let text = b.text(id).await.unwrap_or_default();
+            bail!("{what}: [data-testid={id}] is still there: {text:?}");
+        }
+        tokio::time::sleep(Duration::from_millis(50)).await;
+    }
+    Ok(())
+}
+
+/// Type `raw` into field `id`: the message beside it must be `message`, the field must go back
+/// to `kept`, and the numbers must stay `want` (no logits read either).
+async fn refused(
+    b: &Browser,
+    id: &str,
+    raw: &str,
+    message: &str,
+    kept: &str,
+    want: &Headline,
+) -> anyhow::Result<()> {
+    b.set_value(id, raw).await?;
+    let error = format!("{id}-error");
+    b.wait_text(&error, message, |t| t == message).await?;
+    let v = value(b, id).await?;
+    ensure!(
+        v == kept,
+        "{id} shows {v:?} after {raw:?}, expected {kept:?}"
+    );
+    let invalid = b
+        .eval(
+            "return document.querySelector(arguments[0]).getAttribute('aria-invalid');",
+            vec![json!(Browser::testid(id))],
+        )
+        .await?;
+    ensure!(invalid == "true", "{id} is not marked invalid: {invalid}");
+    // Give a (wrong) change the time to show before checking that none did.
+    tokio::time::sleep(Duration::from_millis(150)).await;
+    ensure!(!reading(b).await?, "{raw:?} in {id} started a read");
+    let got = headline(b).await?;
+    ensure!(
+        got == *want,
+        "{raw:?} in {id} changed the numbers: {got:?}, expected {want:?}"
+    );
+    Ok(())
+}
+
+async fn refused_entries(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    let want = fresh_demo(b, c, &c.http_url).await?;
+    let outside = "1.7 is outside [0, 1]: not applied";
+    refused(b, "threshold-depth-2", "1.7", outside, "0.5", &want).await?;
+    let nan = "`abc` is not a number: not applied";
+    refused(b, "threshold-depth-2", "abc", nan, "0.5", &want).await?;
+    b.find("threshold-depth-2").await?.click().await?;
+    screenshot(b, c, "refused.png").await?;
+    // The next valid entry is applied and the message goes.
+    b.set_value("threshold-depth-2", "0.8").await?;
+    let tuned = expected(c, &["--thresholds", "0.5,0.8,0.5,0.5,0.5"])?;
+    expect_headline(b, &tuned, "depth 2 at 0.8 after the refused entries").await?;
+    wait_gone(b, "threshold-depth-2-error", "a valid entry").await?;
+    ensure!(
+        b.eval(
+            "return document.querySelector(arguments[0]).getAttribute('aria-invalid');",
+            vec![json!(Browser::testid("threshold-depth-2"))],
+        )
+        .await?
+        .is_null(),
+        "threshold-depth-2 still marked invalid"
+    );
+    // Typed key by key, `1.7` passes through `1`, which is applied while typing; the refused
+    // whole puts back the value from before the edit.
+    b.eval(
+        "const e = document.querySelector(arguments[0]); e.focus(); e.select();",
+        vec![json!(Browser::testid("threshold-depth-2"))],
+    )
+    .await?;
+    let enter = char::from(fantoccini::key::Key::Enter);
+    b.find("threshold-depth-2")
+        .await?
+        .send_keys(&format!("1.7{enter}"))
+        .await?;
+    b.wait_text("threshold-depth-2-error", outside, |t| t == outside)
+        .await?;
+    expect_headline(b, &tuned, "1.7 typed key by key into depth 2").await?;
+    let v = value(b, "threshold-depth-2").await?;
+    ensure!(
+        v == "0.8",
+        "threshold-depth-2 shows {v:?} after 1.7 was typed"
+    );
+    // The same for the object threshold, all depths and the temperatures.
+    refused(
+        b,
+        "threshold-object",
+        "-0.2",
+        "-0.2 is outside [0, 1]: not applied",
+        "0.5",
+        &tuned,
+    )
+    .await?;
+    refused(
+        b,
+        "threshold-all",
+        "2",
+        "2 is outside [0, 1]: not applied",
+        "",
+        &tuned,
+    )
+    .await?;
+    for d in 1..=5 {
+        let v = value(b, &format!("threshold-depth-{d}")).await?;
+        let kept = if d == 2 { "0.8" } else { "0.5" };
+        ensure!(
+            v == kept,
+            "threshold-depth-{d} is {v:?} after all depths = 2"
+        );
+    }
+    b.eval(
+        "document.querySelector('[data-testid=advanced]').open = true;",
+        vec![],
+    )
+    .await?;
+    refused(
+        b,
+        "temperature-depth-2",
+        "0",
+        "0 is not a positive number: not applied",
+        "1",
+        &tuned,
+    )
+    .await?;
+    refused(
+        b,
+        "temperature-depth-3",
+        "warm",
+        "`warm` is not a number: not applied",
+        "1",
+        &tuned,
+    )
+    .await?;
+    b.eval(
+        "document.querySelector('[data-testid=temperature-depth-3]').scrollIntoView({block: 'center'});",
+        vec![],
+    )
+    .await?;
+    screenshot(b, c, "refused-advanced.png").await?;
+    b.set_value("temperature-depth-2", "2").await?;
+    let warm = expected(
+        c,
+        &[
+            "--thresholds",
+            "0.5,0.8,0.5,0.5,0.5",
+            "--temperatures",
+            "1,2,1,1,1",
+        ],
+    )?;
+    expect_headline(b, &warm, "temperature 2 at depth 2 after a refused one").await?;
+    wait_gone(b, "temperature-depth-2-error", "a valid temperature").await?;
+    Ok(())
+}
+
+async fn wording(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    fresh_demo(b, c, &c.http_url).await?;
+    b.set_value("threshold-depth-2", "0.8").await?;
+    let args = ["--thresholds", "0.5,0.8,0.5,0.5,0.5"];
+    expect_headline(b, &expected(c, &args)?, "depth 2 at 0.8").await?;
+    // Beside each depth: the share of predictions stopping there, as the CLI counts it.
+    let m = evaluate_json(c, &args)?;
+    for d in 0..=5 {
+        let id = if d == 0 {
+            "threshold-object-share".to_string()
+        } else {
+            format!("threshold-depth-{d}-share")
+        };
+        let share = m["stop_share"][d]
+            .as_f64()
+            .with_context(|| format!("no stop_share[{d}] in {m}"))?;
+        let tail = if d == 0 { "stop at root" } else { "stop here" };
+        let want = format!("{:.1} % {tail}", share * 100.0);
+        let got = b.text(&id).await?;
+        ensure!(got == want, "{id} says {got:?}, expected {want:?}");
+        let title = b.find(&id).await?.attr("title").await?.unwrap_or_default();
+        ensure!(
+            title.starts_with("Share of predictions"),
+            "{id}'s title is {title:?}"
+        );
+    }
+    // All depths, when they differ: an empty field and a line saying what a value there does.
+    let line = "depths differ (0.5 … 0.8): setting a value here sets every depth to it";
+    b.wait_text("threshold-all-note", line, |t| t == line)
+        .await?;
+    ensure!(
+        value(b, "threshold-all").await?.is_empty(),
+        "the all-depths field shows a value while the depths differ"
+    );
+    // Specificity is named for what it is, in the headline and on chart 1.
+    let label = content(b, "metric-specificity-label").await?;
+    ensure!(
+        label.as_deref() == Some("specificity (information gain)"),
+        "the headline calls it {label:?}"
+    );
+    let chart = b
+        .find("chart-tradeoff")
+        .await?
+        .attr("aria-label")
+        .await?
+        .unwrap_or_default();
+    ensure!(
+        chart.contains("specificity (information gain)"),
+        "chart 1 is called {chart:?}"
+    );
+    screenshot(b, c, "wording.png").await?;
+    // One value for all depths: the line goes.
+    b.set_value("threshold-all", "0.6").await?;
+    expect_headline(b, &expected(c, &["--thresholds", "0.6"])?, "all depths 0.6").await?;
+    wait_gone(b, "threshold-all-note", "every depth at 0.6").await?;
+    ensure!(
+        value(b, "threshold-all").await? == "0.6",
+        "the all-depths field"
+    );
+    Ok(())
+}
+
+/// A profile made by the CLI with `node_thresholds` added (the CLI has no flag for them).
+fn profile_with_nodes(c: &Ctx, nodes: Value) -> anyhow::Result<PathBuf> {
+    let plain = c.out_dir.join("profile-plain.json");
+    let out = plain.to_string_lossy().into_owned();
+    cli(
+        c,
+        "profile",
+        &["--thresholds", "0.5,0.7", "--out", out.as_str()],
+    )?;
+    let mut profile: Value = serde_json::from_str(&std::fs::read_to_string(&plain)?)?;
+    profile["node_thresholds"] = nodes;
+    let path = c.out_dir.join("profile-nodes.json");
+    std::fs::write(&path, serde_json::to_string_pretty(&profile)?)?;
+    Ok(path)
+}
+
+async fn node_overrides(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    let path = profile_with_nodes(c, json!({ "pet-bottle": 0.8, "glass": 0.95 }))?;
+    let with = expected(c, &["--profile", &path.to_string_lossy()])?;
+    let defaults = fresh_demo(b, c, &c.http_url).await?;
+    ensure!(
+        with != defaults,
+        "the overrides change nothing on the demo: a useless check"
+    );
+    ensure!(
+        b.find_all("node-overrides").await?.is_empty(),
+        "overrides listed before any profile"
+    );
+    b.upload_file("file-input", &path).await?;
+    expect_headline(b, &with, "the profile with node overrides").await?;
+    let check = |when: &'static str| async move {
+        let list = content(b, "node-overrides").await?.unwrap_or_default();
+        for part in [
+            "Node overrides (2)",
+            "glass",
+            "≥ 0.95",
+            "pet-bottle",
+            "PET bottles",
+            "≥ 0.8",
+        ] {
+            ensure!(
+                list.contains(part),
+                "{when}: the list says {list:?}, expected {part:?}"
+            );
+        }
+        let item = b.text("node-override-pet-bottle").await?;
+        ensure!(
+            item.contains("pet-bottle") && item.contains("PET bottles") && item.ends_with("≥ 0.8"),
+            "{when}: pet-bottle's line is {item:?}"
+        );
+        anyhow::Ok(())
+    };
+    check("loaded").await?;
+    b.eval(
+        "document.querySelector('[data-testid=node-overrides]').scrollIntoView({block: 'center'});",
+        vec![],
+    )
+    .await?;
+    screenshot(b, c, "node-overrides.png").await?;
+    // A reload keeps them (stored by node id), and so the numbers.
+    b.open(&c.http_url).await?;
+    expect_headline(b, &with, "after the reload").await?;
+    check("after the reload").await?;
+    // Reset clears them with the rest; the batch stays.
+    b.click("reset-settings").await?;
+    expect_headline(b, &defaults, "after Reset").await?;
+    wait_gone(b, "node-overrides", "Reset").await?;
+    let in_use = b.text("in-use").await?;
+    ensure!(
+        in_use.contains("labels.csv"),
+        "batch in use after Reset: {in_use:?}"
+    );
+    Ok(())
+}
+
+/// Wait for a download whose name satisfies `named` (`what` it should be) to finish in `dir`
+/// and return its path.
+async fn wait_download(
+    dir: &Path,
+    named: impl Fn(&str) -> bool,
+    what: &str,
+    timeout: Duration,
+) -> anyhow::Result<PathBuf> {
     let deadline = Instant::now() + timeout;
     loop {
-        let partial = std::fs::read_dir(dir)?
+        let names: Vec<String> = std::fs::read_dir(dir)?
             .filter_map(Result::ok)
-            .any(|e| e.file_name().to_string_lossy().ends_with(".crdownload"));
-        if path.is_file() && !partial {
-            return Ok(path);
+            .map(|e| e.file_name().to_string_lossy().into_owned())
+            .collect();
+        let partial = names.iter().any(|n| n.ends_with(".crdownload"));
+        let found = names.iter().find(|n| named(n));
+        if let (Some(name), false) = (found, partial) {
+            return Ok(dir.join(name));
         }
         if Instant::now() > deadline {
-            let seen: Vec<String> = std::fs::read_dir(dir)?
-                .filter_map(Result::ok)
-                .map(|e| e.file_name().to_string_lossy().into_owned())
-                .collect();
-            bail!("no download {} (the folder has {seen:?})", path.display());
+            bail!(
+                "no download {what} in {} (the folder has {names:?})",
+                dir.display()
+            );
         }
         tokio::time::sleep(Duration::from_millis(100)).await;
     }
@@ -537,11 +873,34 @@ fn clear_dir(dir: &Path) -> anyhow::Result<()> {
     Ok(())
 }
 
-/// Save the page's profile and return its path.
+/// Whether `name` is a profile of the demo's `taxonomy.csv` as the page names it:
+/// `taxonomy-profile-YYYY-MM-DDTHHMM.json` (local time; only its shape is checked).
+fn is_demo_profile_name(name: &str) -> bool {
+    let Some(time) = name
+        .strip_prefix("taxonomy-profile-")
+        .and_then(|r| r.strip_suffix(".json"))
+    else {
+        return false;
+    };
+    let shape = "dddd-dd-ddTdddd";
+    time.len() == shape.len()
+        && time
+            .chars()
+            .zip(shape.chars())
+            .all(|(c, s)| if s == 'd' { c.is_ascii_digit() } else { c == s })
+}
+
+/// Save the page's profile (of the demo's taxonomy) and return its path.
 pub(super) async fn save_and_fetch(b: &Browser) -> anyhow::Result<PathBuf> {
     clear_dir(&b.download_dir)?;
     b.click("save-profile").await?;
-    wait_download(&b.download_dir, "hedgerow-profile.json", b.timeout).await
+    wait_download(
+        &b.download_dir,
+        is_demo_profile_name,
+        "taxonomy-profile-YYYY-MM-DDTHHMM.json",
+        b.timeout,
+    )
+    .await
 }
 
 // 4.

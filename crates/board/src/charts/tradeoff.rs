@@ -14,7 +14,7 @@ use super::{
 };
 
 /// The x axis description.
-pub const X_DESC: &str = "specificity (mean information gain)";
+pub const X_DESC: &str = "specificity (information gain)";
 /// The y axis description.
 pub const Y_DESC: &str = "precision";
 /// Legend text of the curve.

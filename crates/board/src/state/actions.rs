@@ -1,6 +1,7 @@
 //! What changes the page's state: the slots files go into, where a file came from, the actions
 //! the shell dispatches, and the settings kept across reloads.
 
+use std::collections::BTreeMap;
 use std::rc::Rc;
 
 use hedgerow_core::intake::Kind;
@@ -86,6 +87,24 @@ pub struct Stored {
     pub thresholds: Vec<f64>,
     pub temperatures: Vec<f64>,
     pub unverifiable: Policy,
+    /// Per-node overrides by node id (placed only on a taxonomy that has those ids). Absent in
+    /// settings stored before overrides were kept.
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub nodes: BTreeMap<String, f64>,
+}
+
+impl Default for Stored {
+    /// The settings of a fresh page (the command line's defaults).
+    fn default() -> Self {
+        Stored {
+            rule: Rule::Cumulative,
+            object_threshold: 0.5,
+            thresholds: vec![0.5],
+            temperatures: Vec::new(),
+            unverifiable: Policy::Credit,
+            nodes: BTreeMap::new(),
+        }
+    }
 }
 
 /// What changes the state.
@@ -148,5 +167,8 @@ pub enum Action {
     /// The depth whose control the user is on: chart 1 shows its sweep.
     Focus(usize),
     Restore(Stored),
+    /// Back to the defaults (`Stored::default()`), per-node overrides cleared; the files and
+    /// the batch stay.
+    Reset,
     ClearErrors,
 }

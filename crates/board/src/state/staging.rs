@@ -62,6 +62,14 @@ pub struct PendingProfile {
     pub profile: Profile,
 }
 
+/// The file a new labels or objectness file replaced in its slot (with the slot's note), put
+/// back if the new one is refused.
+#[derive(Debug, Clone)]
+pub enum Replaced {
+    Labels(Option<Staged<Rc<Vec<u8>>>>, Option<String>),
+    Objectness(Option<Staged<Rc<Objectness>>>, Option<String>),
+}
+
 /// The slots as they were before a logits file was chosen (Cancel puts them back).
 #[derive(Debug, Clone)]
 pub struct Snapshot {
@@ -183,19 +191,21 @@ impl Board {
                 }
             },
             Slot::Labels => {
-                self.notes.insert(slot, format!("{name}: read"));
+                let note = self.notes.insert(slot, format!("{name}: read"));
                 let staged = self.staged(name, origin, bytes);
-                self.labels = Some(staged);
+                self.replaced = Some(Replaced::Labels(self.labels.replace(staged), note));
                 self.settle();
             }
             Slot::Objectness => match Objectness::parse(&bytes, &name) {
                 Ok(o) => {
+                    let note = self.notes.get(&slot).cloned();
                     self.notes.insert(
                         slot,
                         format!("{name}: {} rows", intake::thousands(o.values.len() as u64)),
                     );
                     let staged = self.staged(name, origin, Rc::new(o));
-                    self.objectness = Some(staged);
+                    self.replaced =
+                        Some(Replaced::Objectness(self.objectness.replace(staged), note));
                     self.settle();
                 }
                 Err(e) => {
@@ -482,10 +492,11 @@ impl Board {
                         );
                         self.notes.remove(&Slot::Labels);
                         self.errors.remove(&Slot::Labels);
+                        self.labels = None;
                     } else {
                         self.errors.insert(Slot::Labels, messages(&e));
+                        self.refuse(Slot::Labels);
                     }
-                    self.labels = None;
                     continue;
                 }
                 None => None,
@@ -506,14 +517,39 @@ impl Board {
                 self.note_aside(leaving, format!("{label} set aside: {why}"));
                 self.notes.remove(&leaving);
                 self.errors.remove(&leaving);
+                self.unstage(leaving);
             } else {
                 self.errors
                     .insert(leaving, vec![format!("{}: not used", m.refusal)]);
-                self.notes.remove(&leaving);
+                self.refuse(leaving);
             }
-            self.unstage(leaving);
         }
+        self.replaced = None;
         self.assemble();
+    }
+
+    /// A new labels or objectness file is refused: the file it was to replace goes back into
+    /// the slot (a refused file must not change the batch).
+    fn refuse(&mut self, slot: Slot) {
+        let note = match (slot, self.replaced.take()) {
+            (Slot::Labels, Some(Replaced::Labels(previous, note))) => {
+                self.labels = previous;
+                note
+            }
+            (Slot::Objectness, Some(Replaced::Objectness(previous, note))) => {
+                self.objectness = previous;
+                note
+            }
+            (_, other) => {
+                self.replaced = other;
+                self.unstage(slot);
+                None
+            }
+        };
+        match note {
+            Some(n) => self.notes.insert(slot, n),
+            None => self.notes.remove(&slot),
+        };
     }
 
     /// A line saying why a slot's file left it. Lines stay while the batch they led to is
@@ -682,6 +718,7 @@ impl Board {
         match p.settings(tax) {
             Ok(s) => {
                 self.settings = s;
+                self.adopt_nodes(tax);
                 self.temperatures = p.temperatures();
                 self.fit_depths();
                 self.notes.insert(

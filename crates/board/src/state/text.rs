@@ -40,7 +40,7 @@ pub fn show_ratio(v: Option<f64>) -> String {
 pub const HELP: &[(&str, &str, &str)] = &[
     ("predictions", "predictions", "rows that predict: P(root) reached the object threshold"),
     ("precision", "precision", "share of predictions that are right: the true node or one of its ancestors (unverifiable ones per the policy)"),
-    ("specificity", "specificity", "mean information gain of the predicted node: 0 at the root, 1 at a leaf"),
+    ("specificity", "specificity (information gain)", "mean information gain of the predicted node: 0 at the root, 1 at a leaf"),
     ("reward", "reward", "mean information gain counted only for correct predictions"),
     ("hierarchical-precision", "hier. precision", "shared ancestors of prediction and label over the prediction's ancestors (micro, root excluded)"),
     ("hierarchical-recall", "hier. recall", "shared ancestors of prediction and label over the label's ancestors (micro, root excluded)"),

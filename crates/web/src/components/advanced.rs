@@ -3,8 +3,10 @@
 
 use hedgerow_board::state::Action;
 use hedgerow_core::Policy;
-use web_sys::{HtmlInputElement, HtmlSelectElement};
+use web_sys::HtmlSelectElement;
 use yew::prelude::*;
+
+use super::temperature_field::TemperatureField;
 
 #[derive(Properties, PartialEq)]
 pub struct AdvancedProps {
@@ -39,28 +41,8 @@ pub fn advanced(props: &AdvancedProps) -> Html {
         Action::SetPolicy(Policy::parse(&s.value()).unwrap_or_default())
     });
     let temps = (1..=props.depth).map(|d| {
-        let current = props.temperatures.get(d - 1).copied().unwrap_or(1.0);
-        let on_action = props.on_action.clone();
-        let onchange = Callback::from(move |e: Event| {
-            let input: HtmlInputElement = e.target_unchecked_into();
-            match input.value().trim().parse::<f64>() {
-                Ok(v) if v.is_finite() && v > 0.0 => {
-                    if v != current {
-                        on_action.emit(Action::SetTemperature { depth: d, value: v });
-                    }
-                }
-                _ => input.set_value(&current.to_string()),
-            }
-        });
-        let id = format!("temperature-depth-{d}");
-        html! {
-            <div class="temperature" key={d}>
-                <label for={id.clone()}>{ format!("Depth {d}") }</label>
-                <input type="number" min="0.05" step="0.05" id={id.clone()} data-testid={id}
-                    title={format!("Logits of depth-{d} nodes are divided by this before the softmax")}
-                    value={current.to_string()} {onchange} />
-            </div>
-        }
+        let value = props.temperatures.get(d - 1).copied().unwrap_or(1.0);
+        html! { <TemperatureField key={d} depth={d} {value} on_action={props.on_action.clone()} /> }
     });
     html! {
         <details class="advanced" data-testid="advanced">
@@ -69,7 +51,7 @@ pub fn advanced(props: &AdvancedProps) -> Html {
                 <fieldset class="temperatures">
                     <legend>{ "Softmax temperature per depth" }</legend>
                     <div class="temperature-grid">{ for temps }</div>
-                    <p class="help">{ "Logits are divided by the depth's temperature before each softmax. A change re-reads the logits file." }</p>
+                    <p class="help">{ "Logits are divided by the depth's temperature (a positive number) before each softmax. A change re-reads the logits file." }</p>
                 </fieldset>
             }
             <div class="field">

@@ -4,8 +4,7 @@
 
 use std::rc::Rc;
 
-use hedgerow_board::state::{Action, Slot, Stored};
-use hedgerow_core::{Policy, Rule};
+use hedgerow_board::state::{Action, Slot};
 use yew::prelude::*;
 
 use super::chart::{Chart, ChartView};
@@ -20,17 +19,6 @@ use crate::browser;
 use crate::hooks::use_file_drop::use_file_drop;
 use crate::hooks::use_loader::use_loader;
 use crate::store::BoardState;
-
-/// The settings of a fresh page (the command line's defaults).
-fn defaults() -> Stored {
-    Stored {
-        rule: Rule::Cumulative,
-        object_threshold: 0.5,
-        thresholds: vec![0.5],
-        temperatures: Vec::new(),
-        unverifiable: Policy::Credit,
-    }
-}
 
 #[function_component(App)]
 pub fn app() -> Html {
@@ -66,13 +54,13 @@ pub fn app() -> Html {
     let on_demo = use_callback(loader.clone(), |(), loader| loader.load_demo());
     let on_cancel = use_callback(loader.clone(), |(), loader| loader.cancel());
     let on_dismiss = on_action.reform(|()| Action::ClearErrors);
-    let on_reset = on_action.reform(|()| Action::Restore(defaults()));
+    let on_reset = on_action.reform(|()| Action::Reset);
     let on_save = {
         let board = board.clone();
         Callback::from(move |()| {
             let result = match board.profile() {
                 Some(p) => browser::download(
-                    "hedgerow-profile.json",
+                    &board.profile_file_name(browser::local_time()),
                     "application/json",
                     &(p.to_json() + "\n"),
                 ),
@@ -140,13 +128,14 @@ pub fn app() -> Html {
             <div class="layout">
                 <aside class="left">
                     <Controls settings={board.settings.clone()} depth={depth} has_objectness={has_objectness} focus={focus}
-                        stop_share={stop_share} temperatures={temperatures} can_save={board.metrics.is_some()}
+                        stop_share={stop_share} temperatures={temperatures} node_overrides={board.node_overrides()}
+                        can_save={board.metrics.is_some()}
                         on_action={on_action.clone()} on_save={on_save} on_reset={on_reset} />
                 </aside>
                 <div class="right">
                     <Headline metrics={board.metrics.clone()} />
                     <section class="charts" aria-label="Charts">
-                        <Chart id="chart-tradeoff" title="Precision against specificity" caption={sweep_caption} view={tradeoff} />
+                        <Chart id="chart-tradeoff" title="Precision against specificity (information gain)" caption={sweep_caption} view={tradeoff} />
                         <Chart id="chart-stops" title="Where predictions stop"
                             caption="Share of predictions that stop at each depth (0 = the root: type unknown), by outcome."
                             view={stops} />

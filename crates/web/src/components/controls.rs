@@ -1,12 +1,15 @@
 //! The left column: stopping rule, the object threshold, one control per depth, all depths at
-//! once, the advanced settings, and saving a profile.
+//! once, the per-node overrides in use, the advanced settings, and saving a profile.
 
+use hedgerow_board::overrides::NodeOverride;
 use hedgerow_board::state::Action;
+use hedgerow_board::wording::{depths_differ, stop_at_root, stop_help, stop_here};
 use hedgerow_core::{Rule, Settings};
 use web_sys::HtmlSelectElement;
 use yew::prelude::*;
 
 use super::advanced::Advanced;
+use super::node_overrides::NodeOverrides;
 use super::threshold_control::ThresholdControl;
 
 #[derive(Properties, PartialEq)]
@@ -20,6 +23,8 @@ pub struct ControlsProps {
     pub stop_share: Vec<Option<f64>>,
     /// Temperatures per depth 1..=D.
     pub temperatures: Vec<f64>,
+    /// The per-node thresholds in use.
+    pub node_overrides: Vec<NodeOverride>,
     pub can_save: bool,
     pub on_action: Callback<Action>,
     pub on_save: Callback<()>,
@@ -53,14 +58,7 @@ pub fn controls(props: &ControlsProps) -> Html {
         Action::SetRule(Rule::parse(&s.value()).unwrap_or_default())
     });
     let t = &props.settings.thresholds;
-    let share = |d: usize| {
-        props
-            .stop_share
-            .get(d)
-            .copied()
-            .flatten()
-            .map(|s| AttrValue::from(format!("{:.1} % stop", s * 100.0)))
-    };
+    let share = |d: usize| props.stop_share.get(d).copied().flatten();
     let depths = (1..=props.depth).map(|d| {
         let on_set = props.on_action.reform(move |value| Action::SetDepth { depth: d, value });
         let focus_now = props.focus;
@@ -81,11 +79,12 @@ pub fn controls(props: &ControlsProps) -> Html {
                 help={format!("Step into a depth-{d} node only if {what} ≥ this threshold. Moving it shows its sweep in the precision–specificity chart.")}
                 value={t.at_depth(d)}
                 focused={props.focus == d}
-                aside={share(d)}
+                aside={stop_here(share(d)).map(AttrValue::from)}
+                aside_help={AttrValue::from(stop_help(d))}
                 {on_set} {on_focus} />
         }
     });
-    let all_same = t.depths.windows(2).all(|w| w[0] == w[1]);
+    let differ = depths_differ(&t.depths);
     let all_value = if t.depths.is_empty() {
         0.5
     } else {
@@ -108,7 +107,8 @@ pub fn controls(props: &ControlsProps) -> Html {
                 <ThresholdControl id="threshold-object" label="Object"
                     help="A row predicts at all only if its objectness P(object) reaches this threshold; below it the row abstains. The share is of predictions that stop at the root (an object of unknown type)."
                     value={t.object}
-                    aside={share(0).map(|s| AttrValue::from(format!("{s} at root").replace(" stop", "")))}
+                    aside={stop_at_root(share(0)).map(AttrValue::from)}
+                    aside_help={AttrValue::from(stop_help(0))}
                     on_set={props.on_action.reform(Action::SetObject)} />
             }
             if props.depth == 0 {
@@ -119,9 +119,11 @@ pub fn controls(props: &ControlsProps) -> Html {
                     { for depths }
                 </fieldset>
                 <ThresholdControl id="threshold-all" label="All depths"
-                    help="Set every depth's threshold to one value."
-                    value={all_value} mixed={!all_same}
+                    help="Set every depth's threshold to one value (node overrides keep theirs)."
+                    value={all_value} mixed={differ.is_some()} live={false}
+                    note={differ.map(AttrValue::from)}
                     on_set={props.on_action.reform(Action::SetAllDepths)} />
+                <NodeOverrides overrides={props.node_overrides.clone()} />
             }
             <Advanced depth={props.depth} temperatures={props.temperatures.clone()} policy={props.settings.policy} on_action={props.on_action.clone()} />
             <div class="save">
@@ -130,7 +132,7 @@ pub fn controls(props: &ControlsProps) -> Html {
                     { "Save profile" }
                 </button>
                 <button type="button" class="secondary" data-testid="reset-settings" onclick={on_reset}
-                    title="Back to the defaults: cumulative, every threshold 0.5, temperatures 1, credit">
+                    title="Back to the defaults: cumulative, every threshold 0.5, no per-node override, temperatures 1, credit. The files loaded stay.">
                     { "Reset" }
                 </button>
                 <p class="help">{ "The command line applies it with " }<code>{ "--profile FILE" }</code>{ " (evaluate, decode)." }</p>

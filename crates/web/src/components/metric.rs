@@ -5,7 +5,7 @@ use yew::prelude::*;
 
 #[derive(Properties, PartialEq)]
 pub struct MetricProps {
-    /// `data-testid` of the value: `metric-{key}`.
+    /// `data-testid` of the value: `metric-{key}` (its label: `metric-{key}-label`).
     pub key_name: AttrValue,
     pub label: AttrValue,
     pub value: AttrValue,
@@ -22,7 +22,7 @@ pub struct MetricProps {
 pub fn metric(props: &MetricProps) -> Html {
     html! {
         <div class={classes!("metric", props.class.clone())} title={props.help.clone()}>
-            <div class="metric-label">{ props.label.clone() }</div>
+            <div class="metric-label" data-testid={format!("metric-{}-label", props.key_name)}>{ props.label.clone() }</div>
             <div class="metric-figure">
                 <span class="metric-value" data-testid={format!("metric-{}", props.key_name)}>{ props.value.clone() }</span>
                 if let Some(d) = &props.detail {
