@@ -217,6 +217,39 @@ fn npz_bundles_evaluate_like_separate_files() {
     );
 }
 
+/// Objectness exactly 0 with every threshold 0 on a tree whose leaves lie at different depths:
+/// P(root) times the padding past a shallow leaf is −0.0, which passes 0; `evaluate` and
+/// `profile` panicked in the evaluation kernel. Every row now stops at its leaf.
+#[test]
+fn zero_objectness_at_threshold_zero_stops_at_the_leaf() {
+    let s = Scratch::new("zero-objectness");
+    // x ─ y ─ w, x ─ z: leaves at depths 2 (z) and 3 (w).
+    s.write("t.csv", b"id,parent\nx,\ny,x\nz,x\nw,y\n");
+    let values = [0.0, 0.0, 1.0, 0.0, 0.0, 1.0, 0.0, 0.0];
+    s.write("l.npy", &crate::harness::npy_f32("(2, 4)", &values));
+    s.write("y.csv", b"label\nz\nw\n");
+    s.write("o.npy", &objectness(&[0.0, 0.0]));
+    let flags = ["--thresholds", "0", "--object-threshold", "0"];
+    let mut args = vec!["profile"];
+    args.extend(INPUT);
+    args.extend(flags);
+    let run = hedgerow(&s.dir, &args);
+    assert_eq!(run.code, 0, "profile: {}", run.stderr);
+    let mut args = vec!["evaluate"];
+    args.extend(INPUT);
+    args.extend(flags);
+    args.push("--json");
+    let v = json(&hedgerow(&s.dir, &args));
+    assert_eq!(v["correct"], 2, "{v}");
+    let shares: Vec<f64> = v["stop_share"]
+        .as_array()
+        .expect("stop_share")
+        .iter()
+        .map(|x| x.as_f64().unwrap_or(-1.0))
+        .collect();
+    assert_eq!(shares, vec![0.0, 0.0, 0.5, 0.5]);
+}
+
 #[test]
 fn help_says_specificity_is_information_gain() {
     // Most readers take the bare word for the true-negative rate.

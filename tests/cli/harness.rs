@@ -95,3 +95,73 @@ pub const INPUT: [&str; 8] = [
     "--objectness",
     "o.npy",
 ];
+
+/// The most memory a run held: peak resident set (`VmHWM`) and peak address space (`VmPeak`),
+/// in KiB, read from `/proc/<pid>/status` every millisecond until the process ends.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Peak {
+    pub rss_kib: u64,
+    pub vm_kib: u64,
+}
+
+/// [`hedgerow`], measuring the peak memory of the run.
+pub fn hedgerow_peak(dir: &Path, args: &[&str]) -> (Run, Peak) {
+    use std::io::Read;
+    use std::process::Stdio;
+    let mut child = Command::new(env!("CARGO_BIN_EXE_hedgerow"))
+        .current_dir(dir)
+        .args(args)
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("run hedgerow");
+    // Drain both pipes while the process runs, so it never blocks on a full one.
+    let drain = |pipe: Option<Box<dyn Read + Send>>| {
+        std::thread::spawn(move || {
+            let mut out = Vec::new();
+            if let Some(mut p) = pipe {
+                let _ = p.read_to_end(&mut out);
+            }
+            String::from_utf8_lossy(&out).into_owned()
+        })
+    };
+    let stdout = drain(
+        child
+            .stdout
+            .take()
+            .map(|p| Box::new(p) as Box<dyn Read + Send>),
+    );
+    let stderr = drain(
+        child
+            .stderr
+            .take()
+            .map(|p| Box::new(p) as Box<dyn Read + Send>),
+    );
+    let status_file = format!("/proc/{}/status", child.id());
+    let mut peak = Peak::default();
+    let status = loop {
+        if let Ok(text) = std::fs::read_to_string(&status_file) {
+            let field = |name: &str| {
+                text.lines()
+                    .find_map(|l| l.strip_prefix(name))
+                    .and_then(|v| v.trim().trim_end_matches("kB").trim().parse::<u64>().ok())
+            };
+            if let Some(v) = field("VmHWM:") {
+                peak.rss_kib = peak.rss_kib.max(v);
+            }
+            if let Some(v) = field("VmPeak:") {
+                peak.vm_kib = peak.vm_kib.max(v);
+            }
+        }
+        match child.try_wait().expect("wait for hedgerow") {
+            Some(status) => break status,
+            None => std::thread::sleep(std::time::Duration::from_millis(1)),
+        }
+    };
+    let run = Run {
+        code: status.code().unwrap_or(-1),
+        stdout: stdout.join().expect("stdout"),
+        stderr: stderr.join().expect("stderr"),
+    };
+    (run, peak)
+}

@@ -157,3 +157,43 @@ fn thinned_curve_keeps_exact_points() {
         assert!(ds >= 0.05 || dp >= 0.05, "{w:?}");
     }
 }
+
+/// P(root) = −0.0 (a valid objectness: it is in [0, 1]) makes every cumulative value −0.0,
+/// whose bits sort above 1's: the curve must still put the row's breakpoint at 0, and the
+/// kernel must not descend past the leaf (P(root) · padding is −0.0 too, which passes 0).
+#[test]
+fn negative_zero_objectness_breaks_at_zero() {
+    let tax = taxonomy(TREE);
+    let rows = vec![
+        crate::harness::row(&tax, &[("a", 2.0), ("c", 3.0)]),
+        crate::harness::row(&tax, &[("a", 2.0), ("b", 1.0), ("f", 1.0)]),
+    ];
+    for obj in [[-0.0f32, 0.7], [0.0, 0.7]] {
+        // Row 0 descends to `c` (depth 2), labelled `e`: correct only at the root.
+        let b = batch(&tax, &rows, &["e", "f"], Some(&obj), &[]);
+        for rule in [Rule::Cumulative, Rule::Conditional] {
+            let points = exact_curve(&tax, &b, rule, 0.0, Policy::Credit);
+            assert_eq!(points[0].threshold, 1.0);
+            for p in &points {
+                let m = evaluate(
+                    &tax,
+                    &b,
+                    &settings(rule, &[p.threshold], 0.0, Policy::Credit),
+                );
+                assert_eq!(
+                    (p.correct, p.unverifiable, p.wrong, p.predictions),
+                    (m.correct, m.unverifiable, m.wrong, m.predictions),
+                    "{rule:?} t={} objectness {obj:?}",
+                    p.threshold
+                );
+            }
+            // At threshold 0 every row descends to its leaf (depths 2 and 3), and no further.
+            let m = evaluate(&tax, &b, &settings(rule, &[0.0], 0.0, Policy::Credit));
+            assert_eq!(
+                (m.stop_count[2].wrong, m.stop_count[3].correct),
+                (1, 1),
+                "{rule:?}"
+            );
+        }
+    }
+}

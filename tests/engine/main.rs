@@ -1,12 +1,15 @@
 //! Engine tests: hand-derived worked examples, every decode rule, the exact curve, profiles.
 
 mod curve;
+mod fuzz;
 mod harness;
 mod invariants;
+mod limits;
 mod nodes;
 mod numpy_files;
 mod overrides;
 mod profile;
+mod properties;
 mod robustness;
 mod rules;
 mod worked;

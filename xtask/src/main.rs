@@ -4,6 +4,7 @@ mod batch;
 mod bench;
 mod demo;
 mod e2e;
+mod fuzz;
 mod npy_write;
 mod npz_write;
 mod pyenv;
@@ -26,7 +27,8 @@ tasks:
   gen-wordnet write a test batch over WordNet's noun taxonomy (--out DIR [--root SYNSET] [--rows N]
               [--seed S] [--objectness] [--bundle]; needs Debian's wordnet-base)
   bench       benchmark the CLI against the numpy peer (and wasm in Chromium); writes BENCHMARKS.md
-  bench-wasm  run the engine's benchmark compiled to wasm in headless Chromium";
+  bench-wasm  run the engine's benchmark compiled to wasm in headless Chromium
+  fuzz        build the fuzz targets (libFuzzer, stable toolchain) and run them ([TARGET…] [--seconds N])";
 
 fn main() -> anyhow::Result<()> {
     let mut args = std::env::args().skip(1);
@@ -42,6 +44,7 @@ fn main() -> anyhow::Result<()> {
         "gen-wordnet" => wordnet::run(&rest),
         "bench" => bench::run(&rest),
         "bench-wasm" => bench::wasm::run(&rest),
+        "fuzz" => fuzz::run(&rest),
         _ => {
             eprintln!("{USAGE}");
             std::process::exit(2);

@@ -1,9 +1,11 @@
 //! `cargo xtask test`: every test the project has, provisioning what they need first
 //! (the wasm target, a Python virtual environment, the browser when the page tests run).
 //!
-//! Steps: cargo tests of the host crates; the engine built for wasm32; the Python reference
-//! checks against the CLI on the demo data; the page's end-to-end tests in headless Chromium.
-//! `--no-python` and `--no-browser` skip those steps for a quick local run.
+//! Steps: cargo tests of the host crates (which also replay the fuzz corpus); the engine built
+//! for wasm32; a short coverage-guided run of every fuzz target ("fuzz smoke", a few seconds
+//! each); the Python reference checks against the CLI on the demo data; the page's end-to-end
+//! tests in headless Chromium. `--no-fuzz`, `--no-python` and `--no-browser` skip those steps
+//! for a quick local run.
 
 use std::path::Path;
 use std::process::Command;
@@ -11,7 +13,7 @@ use std::time::Instant;
 
 use anyhow::{bail, Context};
 
-use crate::{e2e, pyenv, root};
+use crate::{e2e, fuzz, pyenv, root};
 
 pub fn run(args: &[String]) -> anyhow::Result<()> {
     let root = root();
@@ -42,6 +44,12 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
             ],
         )
     })?;
+    if !skip("--no-fuzz") {
+        step(
+            "fuzz smoke: every libFuzzer target for a few seconds",
+            &mut || fuzz::smoke(&root),
+        )?;
+    }
     if !skip("--no-python") {
         step("CLI build for the external checks", &mut || {
             cargo(&root, &["build", "-p", "hedgerow-cli"])

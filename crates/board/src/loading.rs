@@ -178,10 +178,21 @@ async fn open_bundle<S: Source>(
     let range = data_range(logits.clone()).await?;
     let mut members = Vec::new();
     let mut problems = Vec::new();
-    for (kind, m) in bundle.members_wanted(given) {
+    let wanted = bundle.members_wanted(given);
+    // The small members are capped by the logits' row count, read from the start of the
+    // `logits` member; without a readable header they are not read (the logits' own read
+    // reports why).
+    let rows = if wanted.is_empty() {
+        None
+    } else {
+        let prefix = read(file, range.0, range.1.min(range.0 + npz::PEEK_BYTES)).await?;
+        bundle.logits_rows(&logits, &prefix).ok()
+    };
+    for (kind, m) in wanted {
+        let Some(rows) = rows else { break };
         let bytes = match data_range(m.clone()).await {
             Ok((s, e)) => match read(file, s, e).await {
-                Ok(data) => bundle.inflate(&m, &data).map_err(|e| e.to_string()),
+                Ok(data) => bundle.inflate(&m, &data, rows).map_err(|e| e.to_string()),
                 Err(e) => Err(e),
             },
             Err(e) => Err(e),

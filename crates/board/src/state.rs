@@ -215,7 +215,7 @@ impl Board {
                 self.rescore();
             }
             Action::SetTemperature { depth, value } => {
-                if depth >= 1 && value.is_finite() && value > 0.0 {
+                if depth >= 1 && Temperatures::valid(value) {
                     let d = self.depth().max(depth);
                     let mut temps = self.temperatures.expand(d);
                     temps[depth - 1] = value;
@@ -237,11 +237,7 @@ impl Board {
                         .map(|&t| text::clamp01(t))
                         .collect();
                 }
-                if stored
-                    .temperatures
-                    .iter()
-                    .all(|t| t.is_finite() && *t > 0.0)
-                {
+                if stored.temperatures.iter().all(|&t| Temperatures::valid(t)) {
                     self.temperatures = Temperatures(stored.temperatures);
                 }
                 self.node_ids = Some(crate::overrides::NodeIds::waiting(stored.nodes));

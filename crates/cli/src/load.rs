@@ -189,7 +189,20 @@ impl Sources {
                 read_at(&mut file, m.local_header, npz::LOCAL_HEADER_BYTES).map_err(cannot)?;
             bundle.data_range(m, &local).map_err(one)
         };
-        for (kind, m) in bundle.members_wanted(&given) {
+        let wanted = bundle.members_wanted(&given);
+        // The small members are capped by the logits' row count, read from the start of the
+        // `logits` member (without it, they are not read: the logits' read says why).
+        let rows = match bundle.member("logits").cloned() {
+            Some(logits) if !wanted.is_empty() => {
+                let (s, e) = data_range(&logits)?;
+                let mut f = File::open(&input.logits).map_err(cannot)?;
+                let prefix = read_at(&mut f, s, (e - s).min(npz::PEEK_BYTES)).map_err(cannot)?;
+                bundle.logits_rows(&logits, &prefix).ok()
+            }
+            _ => None,
+        };
+        for (kind, m) in wanted {
+            let Some(rows) = rows else { break };
             let (s, e) = data_range(&m)?;
             let data = {
                 let mut f = File::open(&input.logits).map_err(cannot)?;
@@ -197,7 +210,7 @@ impl Sources {
             };
             let member = Small {
                 name: bundle.member_name(m.key()),
-                bytes: bundle.inflate(&m, &data).map_err(one)?,
+                bytes: bundle.inflate(&m, &data, rows).map_err(one)?,
             };
             match kind {
                 Kind::Labels => labels = Some(member),

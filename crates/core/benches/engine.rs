@@ -95,6 +95,23 @@ fn bench_evaluate(c: &mut Criterion) {
             b.iter(|| evaluate(&tax, &batch, &settings))
         });
     }
+    // Past six levels the kernel leaves a row early (its other variant).
+    let deep = tree(3, 8);
+    let deep_batch = synthetic_batch(&deep, rows);
+    for rule in [Rule::Cumulative, Rule::Conditional] {
+        let settings = Settings {
+            rule,
+            thresholds: Thresholds {
+                object: 0.3,
+                depths: vec![0.6, 0.5, 0.4, 0.35, 0.3, 0.25, 0.2, 0.15],
+                nodes: Vec::new(),
+            },
+            policy: Policy::Credit,
+        };
+        group.bench_function(format!("1M rows, depth 8, {}", rule.as_str()), |b| {
+            b.iter(|| evaluate(&deep, &deep_batch, &settings))
+        });
+    }
     group.finish();
     let mut group = c.benchmark_group("curve");
     group.sample_size(10);

@@ -3,6 +3,7 @@
 
 use crate::error::{Collector, Error, ErrorKind, Errors, Location, Result};
 use crate::npy;
+use crate::npz;
 use crate::paths::{Ingested, Paths};
 use crate::settings::Temperatures;
 use crate::taxonomy::{Taxonomy, NONE};
@@ -169,6 +170,22 @@ impl Labels {
     }
 }
 
+impl Labels {
+    /// Bytes per row a bundle's labels array may hold: an integer, or a node id of up to 256
+    /// characters (`<U256`, four bytes a character).
+    pub const NPY_BYTES_PER_ROW: u64 = 1024;
+
+    /// The most `.npy` data a labels array for `rows` rows (those of `other`) may hold. A
+    /// bundle's `labels` member is refused past it before it is inflated.
+    pub fn npy_limit(rows: u64, other: &str) -> npz::Limit {
+        npz::Limit {
+            bytes: rows.saturating_mul(Self::NPY_BYTES_PER_ROW),
+            rows,
+            other: other.to_string(),
+        }
+    }
+}
+
 /// A one-column CSV writes a background row as an empty line, which CSV readers skip. When the
 /// header has a single column, turn each empty line (outside quotes) into `""`
 /// so every row is kept and line numbers stay as they are.
@@ -223,6 +240,16 @@ pub struct Objectness {
 }
 
 impl Objectness {
+    /// The most `.npy` data objectness for `rows` rows (those of `other`) can need: a float64
+    /// per row.
+    pub fn npy_limit(rows: u64, other: &str) -> npz::Limit {
+        npz::Limit {
+            bytes: rows.saturating_mul(8),
+            rows,
+            other: other.to_string(),
+        }
+    }
+
     pub fn parse(bytes: &[u8], file: &str) -> Result<Self> {
         let array = npy::read_array(bytes).map_err(|k| Error::new(file, Location::default(), k))?;
         let h = &array.header;
@@ -266,6 +293,46 @@ impl Objectness {
     }
 }
 
+/// Refuse paths whose softmax overflowed: a conditional on the path that is not a number in
+/// [0, 1]. Logits are finite, but a float64 logit near the largest double divided by a
+/// temperature below 1 is ±inf, and the softmax of a group holding it is NaN (the reader then
+/// stores −inf). Named by row and the sibling group (its parent), since no later step can tell
+/// such a row from a real one.
+fn overflowed_softmax(
+    tax: &Taxonomy,
+    file: &str,
+    paths: &Paths,
+    temperatures: &Temperatures,
+) -> Result<()> {
+    let mut errors = Collector::default();
+    for r in 0..paths.len() {
+        let leaf = paths.leaf(r);
+        let cond = paths.cond(r);
+        let depth = tax.depth(leaf).min(cond.len());
+        if let Some(d) = (1..=depth).find(|&d| !(0.0..=1.0).contains(&cond[d - 1])) {
+            let parent = tax.ancestor(leaf, d - 1);
+            let group = if parent == tax.root() {
+                "the top-level nodes".to_string()
+            } else {
+                format!("the children of `{}`", tax.id(parent))
+            };
+            errors.push(Error::new(
+                file,
+                Location::row(r as u64),
+                ErrorKind::Invalid {
+                    what: format!("softmax over {group} (depth {d})"),
+                    expected: "finite logits / temperature".into(),
+                    found: format!(
+                        "an overflow with temperature {}: logits this large need a temperature of at least 1",
+                        temperatures.at_depth(d)
+                    ),
+                },
+            ));
+        }
+    }
+    errors.finish(file)
+}
+
 /// Everything one evaluation reads. Built once per (files, temperatures); thresholds and rules
 /// change nothing here.
 #[derive(Debug, Clone)]
@@ -300,6 +367,7 @@ impl Batch {
         if !errors.is_empty() {
             return Err(Errors(errors));
         }
+        overflowed_softmax(tax, logits_file, &ingested.paths, &temperatures)?;
         let mut h = blake3::Hasher::new();
         h.update(b"hedgerow data v1\0");
         h.update(ingested.digest.as_bytes());

@@ -170,6 +170,11 @@ impl CurveIndex {
                     Rule::Cumulative => p,
                     Rule::Conditional => c,
                 };
+                // A NaN or negative value passes no threshold in [0, 1] (evaluation compares
+                // `q >= t`): the row never reaches this depth.
+                if q.is_nan() || q < 0.0 {
+                    break;
+                }
                 let own = fixed.as_ref().map_or(f64::NAN, |f| {
                     f.get(tax.ancestor(leaf, d) as usize)
                         .copied()
@@ -181,7 +186,9 @@ impl CurveIndex {
                     // Fails at every t: the row never goes deeper than d − 1.
                     break;
                 }
-                let key = m.max(0.0).to_bits();
+                // Keys order like the floats only for non-negative ones; −0.0 (P(root) = −0.0)
+                // has the sign bit set and would sort above 1, so it becomes +0.0.
+                let key = if m > 0.0 { m.to_bits() } else { 0 };
                 match last {
                     Some((k, _)) if k == key => last = Some((key, d as u8)),
                     Some((k, depth)) => {

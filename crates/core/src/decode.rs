@@ -6,6 +6,13 @@ use crate::eval::Outcome;
 use crate::settings::Rule;
 use crate::taxonomy::{Taxonomy, NONE};
 
+/// Whether a value reaches a threshold. A NaN reaches none (as in the kernel's `q >= t` and
+/// the curve), which `q < t` would not say.
+#[inline]
+fn passes(q: f64, t: f64) -> bool {
+    q >= t
+}
+
 /// One node on a decoded path.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Step {
@@ -54,7 +61,8 @@ impl Decoder<'_> {
     #[inline]
     pub fn stop(&self, p_root: f64, leaf: u32, cond: &[f32]) -> Option<usize> {
         let tax = self.tax;
-        if self.objectness && p_root < self.thresholds[tax.root() as usize] {
+        // `!passes`, not `<`: a NaN reaches no threshold, as in the kernel and the curve.
+        if self.objectness && !passes(p_root, self.thresholds[tax.root() as usize]) {
             return None;
         }
         let depth = tax.depth(leaf);
@@ -68,7 +76,7 @@ impl Decoder<'_> {
                 }
                 Rule::Conditional => c,
             };
-            if q < self.thresholds[tax.ancestor(leaf, d) as usize] {
+            if !passes(q, self.thresholds[tax.ancestor(leaf, d) as usize]) {
                 return Some(d - 1);
             }
         }

@@ -126,8 +126,13 @@ pub enum ErrorKind {
     },
     #[error("{what} {found}: expected a number in [0, 1]")]
     ThresholdRange { what: String, found: String },
-    #[error("temperature {found}: expected a finite number above 0")]
-    TemperatureRange { found: String },
+    #[error("temperature for depth {depth} {found}: expected a number from {min} to {max}")]
+    TemperatureRange {
+        depth: usize,
+        found: String,
+        min: f64,
+        max: f64,
+    },
     #[error("{what}: expected {expected}, found `{found}`")]
     Invalid {
         what: String,
@@ -140,6 +145,21 @@ pub enum ErrorKind {
         expected_nodes: usize,
         found: String,
         found_nodes: usize,
+    },
+    #[error(
+        "the member inflates past the {declared} bytes the bundle's directory declares for it"
+    )]
+    MemberOverflow { declared: u64 },
+    #[error("the bundle's directory declares {declared} bytes for this member, but its .npy header implies {implied}")]
+    MemberSize { declared: u64, implied: u64 },
+    #[error("shape {shape} of {dtype} is {found} bytes of data; one value for each of the {rows} rows of {other} takes at most {limit}")]
+    MemberTooLarge {
+        shape: String,
+        dtype: String,
+        found: u64,
+        limit: u64,
+        rows: u64,
+        other: String,
     },
     #[error("expected a `logits` array in the bundle, found {found}")]
     NoLogitsMember { found: String },

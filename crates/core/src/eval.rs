@@ -219,9 +219,9 @@ pub fn evaluate(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Metrics {
     finish(tax, batch, settings, sums)
 }
 
-/// The fast path: per row, the stop depth is the number of leading depths that pass (padding
-/// beyond the leaf is negative, so it never passes); every count is updated with selects
-/// instead of branches, which keeps the data-dependent stop decision from stalling the CPU.
+/// The fast path: per row, the stop depth is the number of leading depths that pass, at most
+/// the leaf's depth; every count is updated with selects instead of branches, which keeps the
+/// data-dependent stop decision from stalling the CPU.
 fn kernel<const CUMULATIVE: bool, const EARLY_EXIT: bool>(
     tax: &Taxonomy,
     batch: &Batch,
@@ -268,6 +268,10 @@ fn kernel<const CUMULATIVE: bool, const EARLY_EXIT: bool>(
                 break;
             }
         }
+        // Padding past the leaf is negative, but with P(root) = 0 the cumulative product there
+        // is −0.0, which passes a threshold of 0: descent never goes below the path's leaf (as
+        // in the general loop, which stops there).
+        let s = s.min(tax.depth(leaves[r]));
         let a = agree[r] as usize;
         let gd = label_depth[r] as usize;
         let labelled = gd > 0;

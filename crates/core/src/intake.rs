@@ -17,6 +17,7 @@
 // One located error per refusal: these run once per file, not per row, so its size is no cost.
 #![allow(clippy::result_large_err)]
 
+use crate::batch::{Labels, Objectness};
 use crate::error::{Error, ErrorKind, Errors, Location};
 use crate::npy::{self, Header};
 use crate::npz;
@@ -337,11 +338,26 @@ impl Bundle {
         }
     }
 
-    /// A small member inflated whole from its compressed data (`data_range`'s bytes).
-    pub fn inflate(&self, member: &npz::Member, data: &[u8]) -> Result<Vec<u8>, Error> {
+    /// The row count of the `logits` member, from the first (at most [`npz::PEEK_BYTES`])
+    /// bytes of its compressed data: what caps the small members ([`Bundle::inflate`]).
+    pub fn logits_rows(&self, member: &npz::Member, prefix: &[u8]) -> Result<u64, Error> {
+        let header = npz::peek_header(member, prefix)
+            .map_err(|k| Error::new(self.member_name(member.key()), Location::default(), k))?;
+        Ok(header.shape.first().copied().unwrap_or(1))
+    }
+
+    /// A small member inflated whole from its compressed data (`data_range`'s bytes), refused
+    /// before its data is inflated when its header holds more than one value for each of the
+    /// logits' `rows` ([`Bundle::logits_rows`]; `Labels::npy_limit`, `Objectness::npy_limit`).
+    pub fn inflate(&self, member: &npz::Member, data: &[u8], rows: u64) -> Result<Vec<u8>, Error> {
         let name = self.member_name(member.key());
         let fail = |k| Error::new(&name, Location::default(), k);
-        let mut flow = npz::Inflow::new(member).map_err(fail)?;
+        let logits = self.member_name("logits");
+        let limit = match member.key() {
+            "objectness" => Objectness::npy_limit(rows, &logits),
+            _ => Labels::npy_limit(rows, &logits),
+        };
+        let mut flow = npz::Inflow::new(member).map_err(fail)?.limit(limit);
         let mut out = Vec::new();
         flow.feed(
             data,

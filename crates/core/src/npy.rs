@@ -202,11 +202,12 @@ pub fn shape_text(shape: &[u64]) -> String {
     }
 }
 
-/// Parse the header from the start of a file. `Ok(None)`: more bytes are needed.
-pub fn parse_header(bytes: &[u8]) -> Result<Option<Header>, ErrorKind> {
-    const MAGIC: &[u8] = b"\x93NUMPY";
+const MAGIC: &[u8] = b"\x93NUMPY";
+
+/// `Err` if `bytes` (the whole file, or all of it there is) do not start like a `.npy`.
+pub fn check_magic(bytes: &[u8]) -> Result<(), ErrorKind> {
     let have = bytes.len().min(MAGIC.len());
-    if bytes[..have] != MAGIC[..have] {
+    if bytes[..have] != MAGIC[..have] || bytes.is_empty() {
         let shown: String = bytes
             .iter()
             .take(6)
@@ -226,6 +227,17 @@ pub fn parse_header(bytes: &[u8]) -> Result<Option<Header>, ErrorKind> {
             },
         });
     }
+    Ok(())
+}
+
+/// Parse the header from the start of a file. `Ok(None)`: more bytes are needed. The magic is
+/// judged once its six bytes are there, so the message names the same bytes however the file
+/// was cut into chunks.
+pub fn parse_header(bytes: &[u8]) -> Result<Option<Header>, ErrorKind> {
+    if bytes.len() < MAGIC.len() {
+        return Ok(None);
+    }
+    check_magic(bytes)?;
     if bytes.len() < 10 {
         return Ok(None);
     }
@@ -376,7 +388,9 @@ fn parse_descr(descr: &str) -> Result<Dtype, ErrorKind> {
         "u8" | "Q" | "L" => Scalar::U64,
         "b1" | "?" => Scalar::Bool,
         _ => match rest.strip_prefix('U').and_then(|n| n.parse::<u32>().ok()) {
-            Some(n) if n > 0 => Scalar::Str(n),
+            // Wider strings than a million characters are no labels (and 4·n must fit a
+            // 32-bit usize in the page).
+            Some(n) if n > 0 && n <= 1 << 20 => Scalar::Str(n),
             _ => return Err(unknown()),
         },
     };
@@ -477,10 +491,11 @@ pub fn read_array(bytes: &[u8]) -> Result<Array<'_>, ErrorKind> {
     let header = match parse_header(bytes)? {
         Some(h) => h,
         None => {
+            check_magic(bytes)?;
             return Err(ErrorKind::NpyHeader(format!(
                 "the file ends inside the header ({} bytes)",
                 bytes.len()
-            )))
+            )));
         }
     };
     let found = (bytes.len() - header.data_offset) as u64;

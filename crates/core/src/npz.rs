@@ -11,6 +11,7 @@ use miniz_oxide::inflate::stream::{inflate, InflateState};
 use miniz_oxide::{DataFormat, MZError, MZFlush, MZStatus};
 
 use crate::error::ErrorKind;
+use crate::npy::{self, Header};
 
 /// Bytes from the end of the file that always hold the end-of-directory records (the record,
 /// a comment of at most 64 KiB, and the zip64 locator and record before it).
@@ -150,7 +151,15 @@ pub fn data_offset(member: &Member, local: &[u8]) -> Result<u64, ErrorKind> {
     Ok(member.local_header.saturating_add(30 + n + e))
 }
 
-/// Decompresses one member as its compressed bytes arrive.
+/// The largest `.npy` header the inflater looks for at a member's start (numpy writes 128
+/// bytes; [`npy::parse_header`] refuses lengths past 16 MiB).
+const HEADER_LOOK: usize = (1 << 24) + 12;
+
+/// Decompresses one member as its compressed bytes arrive, and never produces more than the
+/// member's declared size (its directory entry): an archive whose directory lies about a
+/// member is refused as soon as the output passes the declared size. Once the member's `.npy`
+/// header has come out, the declared size is checked against the size the header implies, and
+/// (with [`Inflow::limit`]) the data against a cap, before any of the data reaches the sink.
 pub struct Inflow {
     state: Option<Box<InflateState>>,
     name: String,
@@ -158,6 +167,20 @@ pub struct Inflow {
     produced: u64,
     expected: u64,
     done: bool,
+    /// The member's first bytes until its `.npy` header is complete (`None` after).
+    head: Option<Vec<u8>>,
+    header: Option<Header>,
+    limit: Option<Limit>,
+}
+
+/// A cap on a small member's data: what one value per row of the logits can take.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Limit {
+    /// Bytes of data at most (after the header).
+    pub bytes: u64,
+    /// The rows it is derived from, and the file that has them (for the message).
+    pub rows: u64,
+    pub other: String,
 }
 
 impl Inflow {
@@ -180,26 +203,62 @@ impl Inflow {
             produced: 0,
             expected: member.size,
             done: false,
+            head: Some(Vec::new()),
+            header: None,
+            limit: None,
         })
+    }
+
+    /// Refuse the member once its header shows more data than `limit` allows.
+    pub fn limit(mut self, limit: Limit) -> Self {
+        self.limit = Some(limit);
+        self
+    }
+
+    /// The member's `.npy` header, once it has been inflated.
+    pub fn header(&self) -> Option<&Header> {
+        self.header.as_ref()
+    }
+
+    /// Decompressed bytes so far.
+    pub fn produced(&self) -> u64 {
+        self.produced
     }
 
     /// Feed compressed bytes; `sink` receives the decompressed bytes in order.
     pub fn feed<E>(
         &mut self,
-        mut input: &[u8],
+        input: &[u8],
         sink: &mut impl FnMut(&[u8]) -> Result<(), E>,
         wrap: impl Fn(ErrorKind) -> E,
     ) -> Result<(), E> {
-        let Some(state) = self.state.as_mut() else {
-            self.produced += input.len() as u64;
+        let mut out = std::mem::take(&mut self.out);
+        let r = self.inflate(input, &mut out, sink, &wrap);
+        self.out = out;
+        r
+    }
+
+    fn inflate<E>(
+        &mut self,
+        mut input: &[u8],
+        out: &mut [u8],
+        sink: &mut impl FnMut(&[u8]) -> Result<(), E>,
+        wrap: &impl Fn(ErrorKind) -> E,
+    ) -> Result<(), E> {
+        if self.state.is_none() {
+            self.check(input).map_err(wrap)?;
             return sink(input);
-        };
+        }
         while !input.is_empty() && !self.done {
-            let r = inflate(state, input, &mut self.out, MZFlush::None);
+            let Some(state) = self.state.as_mut() else {
+                break;
+            };
+            let r = inflate(state, input, out, MZFlush::None);
             input = &input[r.bytes_consumed..];
             if r.bytes_written > 0 {
-                self.produced += r.bytes_written as u64;
-                sink(&self.out[..r.bytes_written])?;
+                let chunk = &out[..r.bytes_written];
+                self.check(chunk).map_err(wrap)?;
+                sink(chunk)?;
             }
             match r.status {
                 Ok(MZStatus::StreamEnd) => self.done = true,
@@ -216,17 +275,68 @@ impl Inflow {
         }
         // Drain what the decoder still holds once the input is used up.
         while !self.done {
-            let r = inflate(state, &[], &mut self.out, MZFlush::None);
+            let Some(state) = self.state.as_mut() else {
+                break;
+            };
+            let r = inflate(state, &[], out, MZFlush::None);
             if r.bytes_written == 0 {
                 if let Ok(MZStatus::StreamEnd) = r.status {
                     self.done = true;
                 }
                 break;
             }
-            self.produced += r.bytes_written as u64;
-            sink(&self.out[..r.bytes_written])?;
+            let chunk = &out[..r.bytes_written];
+            self.check(chunk).map_err(wrap)?;
+            sink(chunk)?;
             if let Ok(MZStatus::StreamEnd) = r.status {
                 self.done = true;
+            }
+        }
+        Ok(())
+    }
+
+    /// Account for decompressed bytes before they reach the sink: refuse output past the
+    /// declared size, and check the header once it is complete.
+    fn check(&mut self, chunk: &[u8]) -> Result<(), ErrorKind> {
+        let produced = self.produced.saturating_add(chunk.len() as u64);
+        if produced > self.expected {
+            return Err(ErrorKind::MemberOverflow {
+                declared: self.expected,
+            });
+        }
+        self.produced = produced;
+        let Some(head) = self.head.as_mut() else {
+            return Ok(());
+        };
+        let room = HEADER_LOOK.saturating_sub(head.len());
+        head.extend_from_slice(&chunk[..chunk.len().min(room)]);
+        match npy::parse_header(head) {
+            // What the header gets wrong is the reader's to say (with its own location).
+            Err(_) => self.head = None,
+            Ok(None) if head.len() >= HEADER_LOOK => self.head = None,
+            Ok(None) => {}
+            Ok(Some(h)) => {
+                self.head = None;
+                let implied = (h.data_offset as u64).saturating_add(h.data_len());
+                if self.expected > implied {
+                    return Err(ErrorKind::MemberSize {
+                        declared: self.expected,
+                        implied,
+                    });
+                }
+                if let Some(limit) = &self.limit {
+                    if h.data_len() > limit.bytes {
+                        return Err(ErrorKind::MemberTooLarge {
+                            shape: h.shape_text(),
+                            dtype: h.dtype.name().into(),
+                            found: h.data_len(),
+                            limit: limit.bytes,
+                            rows: limit.rows,
+                            other: limit.other.clone(),
+                        });
+                    }
+                }
+                self.header = Some(h);
             }
         }
         Ok(())
@@ -244,6 +354,41 @@ impl Inflow {
     }
 }
 
+/// Compressed bytes of a member enough to find its `.npy` header ([`peek_header`]): a numpy
+/// header is 128 bytes, and deflate holds at least a byte per 1,032.
+pub const PEEK_BYTES: u64 = 1 << 16;
+
+/// The `.npy` header at the start of a member, from the first compressed bytes of its data
+/// (at most [`PEEK_BYTES`] are needed). Reading a bundle's small members needs the logits'
+/// row count first, to cap them ([`Limit`]).
+pub fn peek_header(member: &Member, data: &[u8]) -> Result<Header, ErrorKind> {
+    let mut flow = Inflow::new(member)?;
+    let mut head = Vec::new();
+    for piece in data.chunks(1 << 12) {
+        flow.feed(
+            piece,
+            &mut |c: &[u8]| -> Result<(), ErrorKind> {
+                if head.len() < HEADER_LOOK {
+                    head.extend_from_slice(&c[..c.len().min(HEADER_LOOK - head.len())]);
+                }
+                Ok(())
+            },
+            |k| k,
+        )?;
+        if let Some(h) = flow.header() {
+            return Ok(h.clone());
+        }
+        // A bad header: say what the reader would.
+        npy::parse_header(&head)?;
+    }
+    npy::parse_header(&head)?.ok_or_else(|| {
+        ErrorKind::NpyHeader(format!(
+            "no complete header in the member's first {} bytes",
+            head.len()
+        ))
+    })
+}
+
 /// Read a member whole from a bundle held in memory (small members, tests).
 pub fn extract(bytes: &[u8], member: &Member) -> Result<Vec<u8>, ErrorKind> {
     let local = bytes
@@ -259,9 +404,9 @@ pub fn extract(bytes: &[u8], member: &Member) -> Result<Vec<u8>, ErrorKind> {
             member.name
         ))
     })?;
-    // The directory's size is a claim, not a fact: reserve at most what the data could hold.
+    // The directory's size is a claim, not a fact: the output grows as it arrives, and the
+    // inflater refuses more than the claim.
     let mut out = Vec::new();
-    let _ = out.try_reserve(member.size.min(data.len() as u64 * 1032) as usize);
     let mut flow = Inflow::new(member)?;
     flow.feed(
         data,

@@ -254,39 +254,50 @@ impl LogitsReader {
             let rest = self.head.split_off(header.data_offset);
             self.head = Vec::new();
             self.row_bytes = header.shape[1] as usize * header.dtype.scalar.size();
-            // The header says how many rows come: hold exactly that (a failed reservation, for
-            // an absurd header, just leaves the vectors to grow; truncation is reported later).
-            let rows = header.shape[0] as usize;
-            let _ = self.paths.leaf.try_reserve_exact(rows);
-            let _ = self
-                .paths
-                .cond
-                .try_reserve_exact(rows.saturating_mul(self.paths.width));
+            // The header's row count is a claim: room is made as the rows arrive (see `room`),
+            // never past the claim, so a header announcing 10^9 rows over a few bytes costs
+            // nothing. Fortran-order data is held whole, growing the same way.
             if header.fortran_order {
-                let mut buf = Vec::new();
-                let len = usize::try_from(header.data_len()).unwrap_or(usize::MAX);
-                buf.try_reserve_exact(len).map_err(|_| {
-                    self.fail(
-                        Location::default(),
-                        ErrorKind::Invalid {
-                            what: "Fortran-order array".into(),
-                            expected: "an array that fits in memory (Fortran order is read whole; save with np.ascontiguousarray to stream it)".into(),
-                            found: format!("{} bytes", header.data_len()),
-                        },
-                    )
-                })?;
-                self.fortran = Some(buf);
+                self.fortran = Some(Vec::new());
             }
             self.header = Some(header);
             self.carry = rest;
             let carried = std::mem::take(&mut self.carry);
-            self.take_data(tax, &carried);
-            return Ok(());
+            return self.take_data(tax, &carried);
         }
-        self.take_data(tax, data);
+        self.take_data(tax, data)?;
         data = &[];
         let _ = data;
         Ok(())
+    }
+
+    /// Make room in `v` for `more` items, never past `cap` items in all: geometric growth, so
+    /// what is held is at most twice what the data delivered, and exactly `cap` once all of it
+    /// has arrived. `Err` if the allocator refuses.
+    fn room<T>(v: &mut Vec<T>, more: usize, cap: u64) -> std::result::Result<(), ()> {
+        let need = v.len().saturating_add(more);
+        if need <= v.capacity() {
+            return Ok(());
+        }
+        let cap = usize::try_from(cap).unwrap_or(usize::MAX);
+        let target = need.max(v.capacity().saturating_mul(2)).min(cap.max(need));
+        v.try_reserve_exact(target - v.len()).map_err(|_| ())
+    }
+
+    fn too_large(&self, what: &str, bytes: u64) -> Errors {
+        let expected = if self.fortran.is_some() {
+            "an array that fits in memory (Fortran order is read whole; save with np.ascontiguousarray to stream it)"
+        } else {
+            "paths that fit in memory"
+        };
+        self.fail(
+            Location::default(),
+            ErrorKind::Invalid {
+                what: what.into(),
+                expected: expected.into(),
+                found: format!("{bytes} bytes"),
+            },
+        )
     }
 
     fn check_header(&self, tax: &Taxonomy, h: &Header) -> Result<()> {
@@ -320,22 +331,41 @@ impl LogitsReader {
         Ok(())
     }
 
-    fn take_data(&mut self, tax: &Taxonomy, mut data: &[u8]) {
+    fn take_data(&mut self, tax: &Taxonomy, mut data: &[u8]) -> Result<()> {
         let Some(header) = self.header.as_ref() else {
-            return;
+            return Ok(());
         };
         let expected = header.data_len();
         self.data_seen += data.len() as u64;
         if let Some(buf) = self.fortran.as_mut() {
-            let room = (expected as usize).saturating_sub(buf.len());
-            buf.extend_from_slice(&data[..data.len().min(room)]);
-            return;
+            let room = expected.saturating_sub(buf.len() as u64);
+            let take = data.len().min(usize::try_from(room).unwrap_or(usize::MAX));
+            if Self::room(buf, take, expected).is_err() {
+                return Err(self.too_large("Fortran-order array", expected));
+            }
+            buf.extend_from_slice(&data[..take]);
+            return Ok(());
         }
         let rows_total = header.shape[0];
         let dtype = header.dtype;
         let rb = self.row_bytes;
         if rb == 0 {
-            return;
+            return Ok(());
+        }
+        // Room for the rows this chunk completes (and no more than the header announces).
+        let rows_here = ((self.carry.len() + data.len()) / rb) as u64;
+        let rows_here = rows_here.min(rows_total.saturating_sub(self.rows_done)) as usize;
+        let width = self.paths.width as u64;
+        let grown = Self::room(&mut self.paths.leaf, rows_here, rows_total).and_then(|_| {
+            Self::room(
+                &mut self.paths.cond,
+                rows_here.saturating_mul(self.paths.width),
+                rows_total.saturating_mul(width),
+            )
+        });
+        if grown.is_err() {
+            let bytes = rows_total.saturating_mul(4 + 4 * width);
+            return Err(self.too_large("paths of the logits", bytes));
         }
         if !self.carry.is_empty() {
             let need = rb - self.carry.len();
@@ -343,7 +373,7 @@ impl LogitsReader {
             self.carry.extend_from_slice(&data[..take]);
             data = &data[take..];
             if self.carry.len() < rb {
-                return;
+                return Ok(());
             }
             let row = std::mem::take(&mut self.carry);
             if self.rows_done < rows_total {
@@ -360,6 +390,7 @@ impl LogitsReader {
         if self.rows_done < rows_total {
             self.carry.extend_from_slice(rows.remainder());
         }
+        Ok(())
     }
 
     /// Turn one row, still in its file encoding, into its path.
@@ -422,15 +453,12 @@ impl LogitsReader {
     /// Check that the data was complete and return the paths.
     pub fn finish(mut self, tax: &Taxonomy) -> Result<Ingested> {
         let Some(header) = self.header.clone() else {
-            let kind = if self.head.is_empty() {
-                ErrorKind::NpyMagic {
-                    found: "an empty file".into(),
-                }
-            } else {
-                ErrorKind::NpyHeader(format!(
+            let kind = match npy::check_magic(&self.head) {
+                Err(kind) => kind,
+                Ok(()) => ErrorKind::NpyHeader(format!(
                     "the file ends inside the header ({} bytes)",
                     self.head.len()
-                ))
+                )),
             };
             return Err(self.fail(Location::default(), kind));
         };
@@ -458,6 +486,19 @@ impl LogitsReader {
             let (rows, cols) = (header.shape[0] as usize, header.shape[1] as usize);
             let size = header.dtype.scalar.size();
             let mut row = vec![0u8; cols * size];
+            // All the data is here, so the header's row count is a fact now.
+            let width = self.paths.width;
+            let grown = Self::room(&mut self.paths.leaf, rows, rows as u64).and_then(|_| {
+                Self::room(
+                    &mut self.paths.cond,
+                    rows.saturating_mul(width),
+                    (rows as u64).saturating_mul(width as u64),
+                )
+            });
+            if grown.is_err() {
+                let bytes = (rows as u64).saturating_mul(4 + 4 * width as u64);
+                return Err(self.too_large("paths of the logits", bytes));
+            }
             for r in 0..rows {
                 for c in 0..cols {
                     let at = (c * rows + r) * size;

@@ -155,11 +155,27 @@ impl Temperatures {
             .copied()
             .unwrap_or(1.0)
     }
+    /// Smallest and largest temperature accepted. Logits are finite (checked on read); divided
+    /// by a temperature in this range, float16 and float32 logits stay far inside f64, and
+    /// float64 ones up to 10^304 do. Outside it (`1e-310`, say) `logit / t` overflows to ±inf
+    /// and the softmax to NaN.
+    pub const RANGE: std::ops::RangeInclusive<f64> = 1e-4..=1e4;
+
+    /// Whether `t` is a temperature the engine accepts: a normal float in [`Self::RANGE`].
+    pub fn valid(t: f64) -> bool {
+        t.is_normal() && Self::RANGE.contains(&t)
+    }
+
+    /// Every value must be [`valid`](Self::valid); the error names the depth of the first that
+    /// is not.
     pub fn validate(&self) -> Result<(), ErrorKind> {
-        for &t in &self.0 {
-            if !(t.is_finite() && t > 0.0) {
+        for (i, &t) in self.0.iter().enumerate() {
+            if !Self::valid(t) {
                 return Err(ErrorKind::TemperatureRange {
-                    found: t.to_string(),
+                    depth: i + 1,
+                    found: shown(t),
+                    min: *Self::RANGE.start(),
+                    max: *Self::RANGE.end(),
                 });
             }
         }
@@ -168,6 +184,15 @@ impl Temperatures {
     /// One value per depth 1..=D (expanded).
     pub fn expand(&self, max_depth: usize) -> Vec<f64> {
         (1..=max_depth).map(|d| self.at_depth(d)).collect()
+    }
+}
+
+/// A number as a user would write it: `1e-310`, not three hundred zeros.
+fn shown(t: f64) -> String {
+    if t != 0.0 && t.is_finite() && !(1e-4..1e16).contains(&t.abs()) {
+        format!("{t:e}")
+    } else {
+        t.to_string()
     }
 }
 

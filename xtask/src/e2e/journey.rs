@@ -144,7 +144,7 @@ async fn load(
 /// Number fields of the per-depth thresholds now shown.
 async fn depth_fields(b: &Browser) -> anyhow::Result<u64> {
     b.eval(
-        r#"return document.querySelectorAll('input[type=number][data-testid^="threshold-depth-"]').length;"#,
+        r#"return document.querySelectorAll('input.number[data-testid^="threshold-depth-"]').length;"#,
         vec![],
     )
     .await?
