@@ -82,6 +82,12 @@ fn cases() -> Vec<Case> {
         case("temperature zero", base(), &["--temperatures", "1,0"], &["--temperatures: temperature for depth 2 0: expected a number from 0.0001 to 10000"]),
         case("temperature too small to divide by", base(), &["--temperatures", "1e-310"], &["--temperatures: temperature for depth 1 1e-310: expected a number from 0.0001 to 10000"]),
         case("unknown rule", base(), &["--rule", "greedy"], &["--rule: expected cumulative or conditional, found `greedy`"]),
+        case("node threshold for an unknown id", base(), &["--node-threshold", "pet-tray=0.7"], &["--node-threshold pet-tray=0.7: pet-tray is not an id of the taxonomy"]),
+        case("node threshold above 1", base(), &["--node-threshold", "y=1.5"], &["--node-threshold y=1.5: threshold for node y 1.5: expected a number in [0, 1]"]),
+        case("node threshold below 0", base(), &["--node-threshold", "z=-0.2"], &["--node-threshold z=-0.2: threshold for node z -0.2: expected a number in [0, 1]"]),
+        case("node threshold not a number", base(), &["--node-threshold", "y=high"], &["--node-threshold y=high: expected a number in [0, 1] after `=`, found `high`"]),
+        case("node threshold without a value", base(), &["--node-threshold", "y"], &["--node-threshold y: expected ID=V, a node id and its threshold in [0, 1]"]),
+        case("several bad node thresholds", base(), &["--node-threshold", "w=0.5", "--node-threshold", "x=2"], &["--node-threshold w=0.5: w is not an id of the taxonomy", "--node-threshold x=2: threshold for node x 2: expected a number in [0, 1]"]),
     ]
 }
 

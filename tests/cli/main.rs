@@ -1,10 +1,11 @@
 //! Command-line tests: every bad input gets a located message and exit code 2; the happy paths
-//! (evaluate, decode, curve, profile) agree with each other; decode streams in bounded memory.
+//! (evaluate, decode, curve, nodes, profile) agree with each other; decode streams in bounded memory.
 
 mod bad_input;
 mod decode;
 mod happy;
 mod harness;
 mod limits;
+mod nodes;
 mod readme;
 mod stream;

@@ -9,7 +9,12 @@
    0.9,0.7,0.5,0.3 / 0 / 1, with and without objectness at object thresholds
    0.3 and 0.6, all three unverifiable policies, temperatures 1,1,1.5,2):
    counts exactly, ratios within 1e-9 absolute, stop_share / stop_outcome
-   elementwise, and the per-row output of `hedgerow decode`.
+   elementwise, and the per-row output of `hedgerow decode`; and with
+   per-node thresholds (`--node-threshold`).
+4. `hedgerow nodes --json` (the per-node report) against reference.py's
+   node_report on the tiny data (with hand values) and the demo data at
+   several settings, per-node overrides included; its sums against the
+   evaluation (stops over nodes and root = predictions, per outcome).
 
 Exit status: 0 all agree, 1 a mismatch, 2 a usage or environment problem.
 """
@@ -74,6 +79,9 @@ def compare(expected, actual, path: str = "") -> list[str]:
         return out
     if expected is None:
         return [] if actual is None else [f"{where}: expected null, got {actual!r}"]
+    if isinstance(expected, (str, bool)):
+        return [] if actual == expected and type(actual) is type(expected) else [
+            f"{where}: expected {expected!r}, got {actual!r}"]
     if isinstance(actual, bool) or not isinstance(actual, (int, float)):
         return [f"{where}: expected {expected!r}, got {actual!r}"]
     if isinstance(expected, (int, np.integer)) and not isinstance(expected, bool):
@@ -113,6 +121,30 @@ def cli_evaluate(hedgerow: Path, ds: Dataset, s: Setting) -> dict:
         return json.loads(out)
     except json.JSONDecodeError as e:
         raise CliFailure(f"`{' '.join(cmd)}` printed no JSON ({e}): {out[:500]!r}") from None
+
+
+def cli_nodes(hedgerow: Path, ds: Dataset, s: Setting) -> dict:
+    cmd = [str(hedgerow), "nodes", *ds.cli_args(s.use_objectness), *s.cli_args(), "--json"]
+    out = _run(cmd)
+    try:
+        return json.loads(out)
+    except json.JSONDecodeError as e:
+        raise CliFailure(f"`{' '.join(cmd)}` printed no JSON ({e}): {out[:500]!r}") from None
+
+
+def node_sums(report: dict, met: dict) -> list[str]:
+    """The report's counts over every node and the root against the evaluation."""
+    bad = []
+    records = [report["root"], *report["nodes"]]
+    for key, total in (("stops", "predictions"), ("correct", "correct"),
+                       ("unverifiable", "unverifiable"), ("wrong", "wrong")):
+        got = sum(r[key] for r in records)
+        if got != met[total]:
+            bad.append(f"nodes: sum of {key} {got} != {total} {met[total]}")
+    labelled = met.get("labelled_rows")
+    if labelled is not None and report["root"]["labelled"] != labelled:
+        bad.append(f"nodes: root labelled {report['root']['labelled']} != labelled_rows {labelled}")
+    return bad
 
 
 def cli_decode(hedgerow: Path, ds: Dataset, s: Setting, tmp: Path) -> list[dict]:
@@ -270,6 +302,19 @@ DEMO_SETTINGS = [
     Setting("cumulative", "0.9,0.7,0.5,0.3", 0.6, "1,1,1.5,2", "exclude", use_objectness=True),
     Setting("conditional", "0", policy="penalize"),
 ]
+
+# Settings with per-node thresholds on the demo taxonomy: evaluate, decode and
+# nodes are compared at each.  Overrides above and below their depth's value,
+# at 0 and 1, at every depth, under both rules.
+DEMO_NODE_SETTINGS = [
+    Setting("cumulative", "0.5", policy="credit", node_thresholds="pet=0.2,glass=0.9,hdpe-milk=0.05"),
+    Setting("conditional", "0.9,0.7,0.5,0.3", 0.6, policy="penalize", use_objectness=True,
+            node_thresholds="plastic=0.99,paper=0.3,pet-bottle-clear=0,metal=1"),
+    Setting("cumulative", "0.9,0.8,0.6,0.5", 0.4, policy="exclude", use_objectness=True,
+            node_thresholds="pet-bottle=0.1,glass-clear=0.7,film=0.95"),
+]
+# Settings for the node report alone (no overrides).
+DEMO_REPORT_SETTINGS = [DEMO_SETTINGS[1], DEMO_SETTINGS[2], DEMO_SETTINGS[3], DEMO_SETTINGS[6]]
 
 
 # --------------------------------------------------------------------------
@@ -439,6 +484,24 @@ TINY_CASES = [
              mistake_severity=None),
         (1.0, 0.5, 1.0),
     ),
+    # H. cumulative t=0.5, no objectness, plastic's own threshold 0.8 (A's setting otherwise).
+    # row0: P1=.75 < .8 -> root -> correct (A: pet_bottle)
+    # row1: glass P1=f32(.9) >= .5 (its depth's threshold), P2 same -> glass_clear -> correct
+    # row2: tie -> plastic, P1=.5 < .8 -> root -> correct (A: plastic, wrong)
+    # row3: background -> glass_clear -> wrong.  row4 -> glass_clear -> correct
+    # hier: |P^|=0,2,0,2 = 4; |T^| = 7; inter 0,2,0,2 = 4 -> hP 1, hR 4/7, hF 8/11
+    (
+        Setting("cumulative", "0.5", policy="credit", node_thresholds="plastic=0.8"),
+        ["", "glass_clear", "", "glass_clear", "glass_clear"],
+        ["correct", "correct", "correct", "wrong", "correct"],
+        dict(rows=5, predictions=5, abstained=0, correct=4, unverifiable=0, wrong=1,
+             specificity=3 / 5, reward=2 / 5,
+             stop_share=[0.4, 0.0, 0.6, 0.0],
+             stop_outcome=_so((0.4, 0, 0), Z, (0.4, 0, 0.2), Z),
+             hierarchical_precision=1.0, hierarchical_recall=4 / 7, hierarchical_f1=8 / 11,
+             mistake_severity=None),
+        (0.8, 0.8, 0.8),
+    ),
     # F. t0=0.99: every row abstains -> every ratio null except hR = 0/7 = 0.
     (
         Setting("conditional", "0.5", 0.99, policy="credit", use_objectness=True),
@@ -452,6 +515,27 @@ TINY_CASES = [
         (None, None, None),
     ),
 ]
+
+
+# Case H's per-node report, by hand from the rows above (labels: row0 pet,
+# row1 glass_clear, row2 glass, row4 glass_clear; row3 background):
+#   root: rows 0 and 2 stop there, both correct; every labelled row (4) is under it.
+#   plastic / pet: row0 is labelled under them and predicts the root (stopped above).
+#   glass: rows 1, 2, 4 labelled under it; row2 predicts the root (stopped above).
+#   glass_clear: rows 1, 3, 4 stop there (3 is a false alarm); rows 1 and 4 labelled.
+# No labelled row is wrong, so every top_wrong is empty.
+TINY_H_NODES = {
+    "": dict(stops=2, correct=2, unverifiable=0, wrong=0, labelled=4, stopped_above=0, precision=1.0),
+    "plastic": dict(stops=0, labelled=1, stopped_above=1, precision=None, overridden=True, threshold=0.8),
+    "pet": dict(stops=0, labelled=1, stopped_above=1),
+    "glass": dict(stops=0, labelled=3, stopped_above=1, overridden=False, threshold=0.5),
+    "glass_clear": dict(stops=3, correct=2, wrong=1, labelled=2, stopped_above=0, precision=2 / 3),
+    "hdpe": dict(stops=0, labelled=0, stopped_above=0),
+}
+
+
+def report_by_id(report: dict) -> dict:
+    return {r["id"]: r for r in [report["root"], *report["nodes"]]}
 
 
 def tiny_expected(case) -> dict:
@@ -488,8 +572,26 @@ def self_check(tmp: Path) -> list[str]:
             errs.append(f"predictions: expected {preds}, got {got_pred}")
         if [r["outcome"] for r in rows] != outs:
             errs.append(f"outcomes: expected {outs}, got {[r['outcome'] for r in rows]}")
+        if s.node_thresholds == "plastic=0.8":
+            got = report_by_id(ref.run_nodes(data, s))
+            for node, want in TINY_H_NODES.items():
+                errs += compare(want, got[node], f"nodes[{node or 'root'}]")
+            if any(r["top_wrong"] for r in got.values()):
+                errs.append("nodes: a top_wrong list is not empty")
         print(f"{label}: {'ok' if not errs else 'MISMATCH'} ({summary(met)})")
         bad += [f"{label}: {e}" for e in errs]
+    # The Wilson interval against scipy's (scipy.stats.binomtest(k, n).proportion_ci(
+    # confidence_level=0.95, method="wilson")), and Newcombe (1998) Table I, method 3:
+    # 81/263 -> 0.2553-0.3662, 0/20 -> 0-0.1611.
+    from scipy.stats import binomtest
+    for k, n in ((81, 263), (0, 20), (20, 20), (7, 9), (1, 1), (999, 1000)):
+        ci = binomtest(k, n).proportion_ci(confidence_level=0.95, method="wilson")
+        lo, hi = ref.wilson(k, n)
+        if abs(lo - ci.low) > 1e-12 or abs(hi - ci.high) > 1e-12:
+            bad.append(f"wilson({k}, {n}) = {(lo, hi)}, scipy gives {(ci.low, ci.high)}")
+    for (k, n), want in (((81, 263), (0.2553, 0.3662)), ((0, 20), (0.0, 0.1611))):
+        if tuple(round(x, 4) for x in ref.wilson(k, n)) != want:
+            bad.append(f"wilson({k}, {n}) = {ref.wilson(k, n)}, Newcombe (1998) gives {want}")
     return bad
 
 
@@ -534,12 +636,13 @@ def random_dataset(d: Path, seed: int = 7, n: int = 400, m: int = 40, depth: int
     return Dataset(d / "taxonomy.csv", d / "logits.npy", d / "labels.csv", d / "objectness.npy", "random")
 
 
-def naive_metrics(data: ref.Loaded, s: Setting) -> dict:
+def naive_metrics(data: ref.Loaded, s: Setting, nodes: bool = False) -> dict:
     tax = data.tax
     big_d = tax.max_depth
     root = tax.root
     temps = ref.expand(ref.parse_list(s.temperatures), big_d, 1.0)
     t = ref.expand(ref.parse_list(s.thresholds), big_d)
+    own = {tax.index[node]: value for node, value in s.node_pairs()}
 
     def ancestors(v):  # v and its ancestors, without the root
         out = set()
@@ -580,7 +683,7 @@ def naive_metrics(data: ref.Loaded, s: Setting) -> dict:
         pred = root
         for d, (v, c) in enumerate(path, 1):
             p = p * c
-            if (p if s.rule == "cumulative" else c) < t[d - 1]:
+            if (p if s.rule == "cumulative" else c) < own.get(v, t[d - 1]):
                 break
             pred = v
         res.append((predicts, pred, int(data.labels[i])))
@@ -617,6 +720,8 @@ def naive_metrics(data: ref.Loaded, s: Setting) -> dict:
         if o == "wrong" and g != ref.BACKGROUND:
             common = ancestors(pred) & ancestors(g)
             dists.append(len(ancestors(pred)) + len(ancestors(g)) - 2 * len(common))
+    if nodes:
+        return naive_nodes(tax, s, preds, [g for _, _, g in res], ancestors)
     return {
         "rows": len(res),
         "predictions": npred,
@@ -637,17 +742,62 @@ def naive_metrics(data: ref.Loaded, s: Setting) -> dict:
     }
 
 
+def naive_nodes(tax, s: Setting, preds, labels, ancestors) -> dict:
+    """The per-node report from explicit ancestor sets, one node and one row at a time.
+    `preds`: (prediction, label, outcome) of the predicting rows; `labels`: every row's."""
+    root = tax.root
+
+    def under(g, v):  # label g is v or below it
+        return g != ref.BACKGROUND and (v == root or v in ancestors(g))
+
+    def strictly_above(p, v):  # p is a strict ancestor of v (the root included)
+        return p != v and (p == root or p in ancestors(v))
+
+    records = []
+    for v in [root, *range(tax.m)]:
+        here = [o for p, _, o in preds if p == v]
+        c, u, w = (here.count(o) for o in ref.OUTCOMES)
+        wrong = {}
+        for p, g, o in preds:
+            if o == "wrong" and under(g, v):
+                wrong[p] = wrong.get(p, 0) + 1
+        top = sorted(wrong.items(), key=lambda pk: (-pk[1], pk[0]))[: ref.TOP_WRONG]
+        num, den = {"credit": (c + u, c + u + w), "penalize": (c, c + u + w), "exclude": (c, c + w)}[s.policy]
+        records.append({
+            "id": "" if v == root else tax.ids[v],
+            "stops": len(here), "correct": c, "unverifiable": u, "wrong": w,
+            "labelled": sum(1 for g in labels if under(g, v)),
+            "stopped_above": sum(1 for p, g, _ in preds if under(g, v) and strictly_above(p, v)),
+            "precision": None if den == 0 else num / den,
+            "top_wrong": [{"node": tax.ids[p], "count": k} for p, k in top],
+        })
+    return {"root": records[0], "nodes": records[1:]}
+
+
+# Per-node thresholds on the random taxonomy (its ids n0…, deep1…deep4).
+RANDOM_NODE_SETTINGS = [
+    Setting("cumulative", "0.5", policy="credit", node_thresholds="n0=0.9,deep2=0.1"),
+    Setting("conditional", "0.7,0.5,0.3", 0.3, policy="exclude", use_objectness=True,
+            node_thresholds="deep1=0,deep3=0.95,n0=0.2"),
+]
+
+
 def cross_check(tmp: Path) -> list[str]:
     """Vectorised reference vs the naive one on random data, at the demo settings."""
     d = tmp / "random"
     d.mkdir(exist_ok=True)
     data = ref.load(random_dataset(d))
     bad = []
-    for s in DEMO_SETTINGS + [c[0] for c in TINY_CASES]:
+    random_ok = [c[0] for c in TINY_CASES if all(n in data.tax.index for n, _ in c[0].node_pairs())]
+    for s in DEMO_SETTINGS + random_ok + RANDOM_NODE_SETTINGS:
         _, met = ref.run(data, s)
         errs = compare(naive_metrics(data, s), met)
         print(f"cross-check (random, D={data.tax.max_depth}) {s.describe()}: {'ok' if not errs else 'MISMATCH'} ({summary(met)})")
         bad += [f"cross-check {s.describe()}: {e}" for e in errs]
+    for s in DEMO_SETTINGS[:3] + RANDOM_NODE_SETTINGS:
+        errs = compare(naive_metrics(data, s, nodes=True), ref.run_nodes(data, s))
+        print(f"cross-check nodes (random) {s.describe()}: {'ok' if not errs else 'MISMATCH'}")
+        bad += [f"cross-check nodes {s.describe()}: {e}" for e in errs[:10]]
     return bad
 
 
@@ -666,6 +816,9 @@ def check_tiny_cli(hedgerow: Path, tmp: Path) -> list[str]:
             errs += compare_extra(data, dec, got)
             derrs, dnotes = compare_decode(data, dec, s.rule, cli_decode(hedgerow, ds, s, tmp))
             errs, notes = errs + derrs, notes + dnotes
+            report = cli_nodes(hedgerow, ds, s)
+            errs += compare(ref.run_nodes(data, s), report, "nodes")
+            errs += node_sums(report, got)
         except CliFailure as e:
             errs, notes, got = [str(e)], [], {}
         print(f"{label}: ok ({summary(got)})" if not errs else f"{label}: MISMATCH ({len(errs)} problem(s))")
@@ -683,7 +836,7 @@ def check_demo(hedgerow: Path, datasets: list[Dataset], tmp: Path) -> list[str]:
         data = ref.load(ds)
         print(f"data set {ds.name}: {data.logits.shape[0]} rows, {data.tax.m} nodes, D={data.tax.max_depth}, "
               f"{int((data.labels == ref.BACKGROUND).sum())} background, objectness {'yes' if ds.objectness else 'no'}")
-        for s in DEMO_SETTINGS:
+        for s in DEMO_SETTINGS + DEMO_NODE_SETTINGS:
             label = f"{s.describe()}"
             if s.use_objectness and ds.objectness is None:
                 print(f"{label}: skipped (no objectness in this data set)")
@@ -701,6 +854,21 @@ def check_demo(hedgerow: Path, datasets: list[Dataset], tmp: Path) -> list[str]:
             for n in notes:
                 print(f"    note: {n}")
             for e in errs:
+                print(f"    {e}")
+            bad += [f"{ds.name} {label}: {e}" for e in errs]
+        for s in DEMO_REPORT_SETTINGS + DEMO_NODE_SETTINGS:
+            label = f"nodes {s.describe()}"
+            if s.use_objectness and ds.objectness is None:
+                print(f"{label}: skipped (no objectness in this data set)")
+                continue
+            try:
+                got = cli_nodes(hedgerow, ds, s)
+                errs = compare(ref.run_nodes(data, s), got)
+                errs += node_sums(got, cli_evaluate(hedgerow, ds, s))
+            except CliFailure as e:
+                errs = [str(e)]
+            print(f"{label}: {'ok' if not errs else 'MISMATCH'} ({len(got.get('nodes', []))} nodes)")
+            for e in errs[:20]:
                 print(f"    {e}")
             bad += [f"{ds.name} {label}: {e}" for e in errs]
     return bad

@@ -22,6 +22,17 @@ Contract summary (the numbers in brackets are the steps in `decode`):
       "cumulative": step into c_d iff P_d >= t_d;  rule "conditional": iff
       c_d >= t_d.  Descent stops at the first failing depth; prediction is
       c_s, s = steps taken (s = 0 -> the root, "an object of unknown type").
+      A per-node threshold (`--node-threshold ID=V`) replaces t_d for the
+      step into that node, under either rule.
+
+Per-node report (`hedgerow nodes --json`), for every node v and the root:
+  stops / correct / unverifiable / wrong: predictions whose node is v, by
+  outcome; labelled: labelled rows whose label is v or below it; stopped_above:
+  of those, the predicting rows whose prediction is a strict ancestor of v
+  (the root included); precision of v's stops under the policy with its
+  Wilson score 95 % interval (checked against scipy.stats.binomtest(k, n)
+  .proportion_ci(method="wilson")); top_wrong: the 3 most frequent wrong
+  predictions among rows labelled at or below v (ties: lower column first).
 
 Metric sources:
   * information gain IG(v) = 1 - ln|leaves(v)| / ln|leaves(root)|:
@@ -43,8 +54,10 @@ Usable as a library or on the command line, mirroring the CLI's flags:
 
     python reference.py evaluate --taxonomy T --logits L --labels Y \
         [--objectness O --object-threshold X] --thresholds 0.9,0.7 \
-        [--rule conditional] [--temperatures 1,1.5] [--unverifiable credit]
+        [--rule conditional] [--temperatures 1,1.5] [--unverifiable credit] \
+        [--node-threshold ID=V ...]
     python reference.py decode ... --out preds.csv
+    python reference.py nodes ...
 """
 
 from __future__ import annotations
@@ -272,6 +285,7 @@ def decode(
     objectness: np.ndarray | None = None,
     object_threshold: float | None = None,
     temperatures=None,
+    node_thresholds: dict[int, float] | None = None,
 ) -> Decoded:
     if rule not in RULES:
         raise ValueError(f"unknown rule {rule!r}")
@@ -321,8 +335,14 @@ def decode(
     else:
         predicts = np.ones(n, dtype=bool)
     score = cum[:, 1:] if rule == "cumulative" else c
+    # Threshold of each step: the override of the node stepped into, else t_d.
+    own = np.full(tax.m + 1, np.nan)
+    for v, value in (node_thresholds or {}).items():
+        own[v] = float(value)
+    own_on_path = np.where(on_path, own[np.where(on_path, path, tax.root)], np.nan)
+    step_t = np.where(np.isnan(own_on_path), t[None, :], own_on_path)
     with np.errstate(invalid="ignore"):
-        passes = (score >= t[None, :]) & on_path  # nan (past the leaf) never passes
+        passes = (score >= step_t) & on_path  # nan (past the leaf) never passes
     steps = np.cumprod(passes, axis=1).sum(axis=1)
     pred = np.where(steps > 0, path[np.arange(n), np.maximum(steps - 1, 0)], root)
     probability = cum[np.arange(n), steps]
@@ -442,6 +462,80 @@ def metrics(tax: Taxonomy, dec: Decoded, labels: np.ndarray, policy: str = "cred
 
 
 # --------------------------------------------------------------------------
+# Per-node report
+
+TOP_WRONG = 3
+
+
+def wilson(k: int, n: int, z: float = 1.959963984540054):
+    """Wilson score interval (Wilson 1927; Newcombe 1998, method 3) for k of n,
+    z = scipy.stats.norm.ppf(0.975).  None for n = 0."""
+    if n == 0:
+        return None
+    z2 = z * z
+    centre = (k + z2 / 2) / (n + z2)
+    half = z * math.sqrt(k * (n - k) / n + z2 / 4) / (n + z2)
+    return max(centre - half, 0.0), min(centre + half, 1.0)
+
+
+def precision_counts(policy: str, c: int, u: int, w: int) -> tuple[int, int]:
+    """(successes, trials) behind precision under a policy."""
+    return {"credit": (c + u, c + u + w), "penalize": (c, c + u + w), "exclude": (c, c + w)}[policy]
+
+
+def node_report(tax: Taxonomy, dec: Decoded, labels: np.ndarray, policy: str = "credit",
+                node_thresholds: dict[int, float] | None = None,
+                thresholds=None, object_threshold: float | None = None) -> dict:
+    """`hedgerow nodes --json` without the CLI's echo of the settings: per node
+    (and the root) the counts described in the module docstring.  Vectorised
+    over rows, one node at a time."""
+    out = outcomes(tax, dec, labels)
+    pr = dec.predicts
+    lab = labels != BACKGROUND
+    g = np.where(lab, labels, tax.root)
+    t = expand(thresholds, tax.max_depth) if thresholds is not None else None
+    records = []
+    for v in [tax.root, *range(tax.m)]:
+        dv = int(tax.depth[v])
+        stop_here = pr & (dec.pred == v)
+        c, u, w = (int((stop_here & (out == o)).sum()) for o in OUTCOMES)
+        under = lab & (tax.anc_at[g, dv] == v)  # label is v or below it
+        dp = tax.depth[dec.pred]
+        pred_above = (dp < dv) & (tax.anc_at[v, np.minimum(dp, dv)] == dec.pred)
+        wrong_under = under & pr & (out == "wrong")
+        preds, counts = np.unique(dec.pred[wrong_under], return_counts=True)
+        order = sorted(zip(preds.tolist(), counts.tolist()), key=lambda pc: (-pc[1], pc[0]))
+        k, n = precision_counts(policy, c, u, w)
+        interval = wilson(k, n)
+        if v == tax.root:
+            threshold = object_threshold
+        elif node_thresholds and v in node_thresholds:
+            threshold = float(node_thresholds[v])
+        else:
+            threshold = None if t is None else float(t[dv - 1])
+        rec = {
+            "id": tax.node_id(v),
+            "name": "" if v == tax.root else tax.names[v],
+            "depth": dv,
+            "overridden": bool(node_thresholds) and v in node_thresholds,
+            "stops": c + u + w,
+            "correct": c,
+            "unverifiable": u,
+            "wrong": w,
+            "labelled": int(under.sum()),
+            "stopped_above": int((under & pr & pred_above).sum()),
+            "precision": None if n == 0 else k / n,
+            "precision_low": None if interval is None else interval[0],
+            "precision_high": None if interval is None else interval[1],
+            "top_wrong": [{"node": tax.ids[p], "count": int(k_)} for p, k_ in order[:TOP_WRONG]],
+        }
+        if threshold is not None:
+            rec["threshold"] = threshold
+        records.append(rec)
+    return {"rows": len(labels), "predictions": int(pr.sum()), "root": records[0], "nodes": records[1:]}
+
+
+# --------------------------------------------------------------------------
 # Convenience: everything from file paths and CLI-style settings
 
 
@@ -453,13 +547,25 @@ class Setting:
     temperatures: str | None = None
     policy: str = "credit"
     use_objectness: bool = False
+    node_thresholds: str | None = None  # "id=v,id=v" (ids without commas)
 
     def describe(self) -> str:
         s = f"{self.rule} t={self.thresholds}"
         s += f" obj={self.object_threshold}" if self.use_objectness else " no-obj"
         if self.temperatures:
             s += f" T={self.temperatures}"
+        if self.node_thresholds:
+            s += f" nodes={self.node_thresholds}"
         return s + f" {self.policy}"
+
+    def node_pairs(self) -> list[tuple[str, float]]:
+        if not self.node_thresholds:
+            return []
+        pairs = []
+        for part in self.node_thresholds.split(","):
+            node, value = part.rsplit("=", 1)
+            pairs.append((node.strip(), float(value)))
+        return pairs
 
     def cli_args(self) -> list[str]:
         """Setting flags for `hedgerow evaluate|decode` (input flags not included)."""
@@ -468,6 +574,8 @@ class Setting:
             a += ["--object-threshold", repr(float(self.object_threshold))]
         if self.temperatures:
             a += ["--temperatures", self.temperatures]
+        for node, value in self.node_pairs():
+            a += ["--node-threshold", f"{node}={value!r}"]
         return a
 
 
@@ -506,6 +614,16 @@ def load(ds: Dataset) -> Loaded:
     return Loaded(tax, logits, labels, obj)
 
 
+def node_thresholds(tax: Taxonomy, s: Setting) -> dict[int, float]:
+    """The setting's per-node overrides by column (a later one for the same node wins)."""
+    out = {}
+    for node, value in s.node_pairs():
+        if node not in tax.index:
+            raise ValueError(f"node threshold for unknown id {node!r}")
+        out[tax.index[node]] = value
+    return out
+
+
 def run(data: Loaded, s: Setting) -> tuple[Decoded, dict]:
     dec = decode(
         data.tax,
@@ -515,8 +633,18 @@ def run(data: Loaded, s: Setting) -> tuple[Decoded, dict]:
         objectness=data.objectness if s.use_objectness else None,
         object_threshold=s.object_threshold if s.use_objectness else None,
         temperatures=parse_list(s.temperatures),
+        node_thresholds=node_thresholds(data.tax, s),
     )
     return dec, metrics(data.tax, dec, data.labels, s.policy)
+
+
+def run_nodes(data: Loaded, s: Setting) -> dict:
+    """The per-node report at a setting."""
+    dec, _ = run(data, s)
+    return node_report(
+        data.tax, dec, data.labels, s.policy, node_thresholds(data.tax, s),
+        parse_list(s.thresholds), s.object_threshold if s.use_objectness else None,
+    )
 
 
 def decode_rows(data: Loaded, dec: Decoded, rule: str = "cumulative") -> list[dict]:
@@ -575,7 +703,7 @@ def extra_metrics(tax: Taxonomy, dec: Decoded, labels: np.ndarray) -> dict:
 
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
-    ap.add_argument("command", choices=["evaluate", "decode"])
+    ap.add_argument("command", choices=["evaluate", "decode", "nodes"])
     ap.add_argument("--taxonomy", required=True)
     ap.add_argument("--logits", required=True)
     ap.add_argument("--labels", required=True)
@@ -585,15 +713,19 @@ def main(argv=None) -> int:
     ap.add_argument("--object-threshold", type=float)
     ap.add_argument("--temperatures")
     ap.add_argument("--unverifiable", default="credit", choices=POLICIES)
+    ap.add_argument("--node-threshold", action="append", default=[], metavar="ID=V")
     ap.add_argument("--json", action="store_true", help="accepted for symmetry; output is always JSON")
     ap.add_argument("--out")
     a = ap.parse_args(argv)
     ds = Dataset(Path(a.taxonomy), Path(a.logits), Path(a.labels), Path(a.objectness) if a.objectness else None)
-    s = Setting(a.rule, a.thresholds, a.object_threshold, a.temperatures, a.unverifiable, a.objectness is not None)
+    s = Setting(a.rule, a.thresholds, a.object_threshold, a.temperatures, a.unverifiable, a.objectness is not None,
+                ",".join(a.node_threshold) or None)
     data = load(ds)
     dec, met = run(data, s)
     if a.command == "evaluate":
         print(json.dumps(met, indent=2))
+    elif a.command == "nodes":
+        print(json.dumps(run_nodes(data, s), indent=2))
     else:
         rows = decode_rows(data, dec, s.rule)
         f = open(a.out, "w", newline="") if a.out else sys.stdout

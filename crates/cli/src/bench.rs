@@ -77,6 +77,11 @@ pub fn run(input: &Input, args: &SettingArgs, repeat: usize) -> Result<String, F
         1.0 / 2000.0,
     );
     let curve_drawn_seconds = t.elapsed().as_secs_f64();
+    // The per-node report (`hedgerow nodes`): one pass over the rows.
+    let t = Instant::now();
+    let report = hedgerow_core::node_report(tax, batch, &settings);
+    let nodes_seconds = t.elapsed().as_secs_f64();
+    checksum = checksum.wrapping_add(report.root.stops);
     let out = serde_json::json!({
         "rows": batch.len(),
         "nodes": tax.len(),
@@ -97,6 +102,7 @@ pub fn run(input: &Input, args: &SettingArgs, repeat: usize) -> Result<String, F
         "curve_drawn_sweep_seconds": curve_drawn_seconds,
         "curve_drawn_points": drawn.len(),
         "curve_points": curve.len(),
+        "nodes_seconds": nodes_seconds,
         "path_bytes_per_row": batch.paths().bytes_per_row(),
         "resident_growth_after_load_bytes": after.zip(before).map(|(a, b)| a.saturating_sub(b)),
         "peak_rss_during_load_bytes": peak_during_load,

@@ -180,8 +180,8 @@ pub fn table(loaded: &Loaded) -> String {
     let _ = writeln!(out);
     let _ = writeln!(
         out,
-        "{:<width$}  {:>9}  {:>7}  {:>7}  {:>7}  {:>7}  {:<24}  {:>8}  {:>7}  most often wrong for rows labelled here",
-        "node", "threshold", "stops", "correct", "unverif", "wrong", "precision (95% interval)", "labelled", "above"
+        "{:<width$}  {:>9}  {:>7}  {:>7}  {:>7}  {:>7}  {:<24}  {:>8}  {:>13}  most often wrong for rows labelled here",
+        "node", "threshold", "stops", "correct", "unverif", "wrong", "precision (95% interval)", "labelled", "stopped above"
     );
     for r in rows {
         let precision = match (r.precision, r.precision_low, r.precision_high) {
@@ -198,9 +198,8 @@ pub fn table(loaded: &Loaded) -> String {
             .iter()
             .map(|x| format!("{} {}", x.node, x.count))
             .collect();
-        let _ = writeln!(
-            out,
-            "{:<width$}  {:>9}  {:>7}  {:>7}  {:>7}  {:>7}  {:<24}  {:>8}  {:>7}  {}",
+        let line = format!(
+            "{:<width$}  {:>9}  {:>7}  {:>7}  {:>7}  {:>7}  {:<24}  {:>8}  {:>13}  {}",
             label(r),
             threshold,
             r.stops,
@@ -212,6 +211,7 @@ pub fn table(loaded: &Loaded) -> String {
             r.stopped_above,
             wrong.join(", ")
         );
+        let _ = writeln!(out, "{}", line.trim_end());
     }
     out
 }

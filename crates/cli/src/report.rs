@@ -43,6 +43,15 @@ pub fn table(loaded: &Loaded, m: &Metrics) -> String {
         depths.join(", "),
         s.policy.as_str()
     );
+    if !s.thresholds.nodes.is_empty() {
+        let nodes: Vec<String> = s
+            .thresholds
+            .nodes
+            .iter()
+            .map(|&(v, t)| format!("{} {t}", tax.id(v)))
+            .collect();
+        let _ = writeln!(out, "node thresholds: {}", nodes.join(", "));
+    }
     let _ = writeln!(out);
     let rows: [(&str, String); 14] = [
         ("predictions", m.predictions.to_string()),
