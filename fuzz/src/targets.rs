@@ -29,18 +29,18 @@ fn tree() -> Option<Taxonomy> {
     Taxonomy::parse(TREE.as_bytes(), "taxonomy.csv").ok()
 }
 
-/// splitmix64, for chunk boundaries and synthetic logits.
-struct Mix(u64);
+/// splitmix64, for chunk boundaries and synthetic logits (and the engine tests' damage).
+pub struct Mix(pub u64);
 
 impl Mix {
-    fn next(&mut self) -> u64 {
+    pub fn next(&mut self) -> u64 {
         self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
         let mut z = self.0;
         z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
         z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
         z ^ (z >> 31)
     }
-    fn below(&mut self, n: usize) -> usize {
+    pub fn below(&mut self, n: usize) -> usize {
         (self.next() % n.max(1) as u64) as usize
     }
 }

@@ -292,24 +292,14 @@ fn a_profile_scored_with_objectness_needs_objectness_or_the_flag() {
 #[test]
 fn bundles_and_fortran_order_decode_like_separate_files() {
     let s = Scratch::new("bundle");
-    let fixtures = concat!(env!("CARGO_MANIFEST_DIR"), "/../../tests/fixtures/numpy/");
-    s.write(
-        "t.csv",
-        b"id,parent,name\nb,a,B\na,,A\nc,a,C\nd,,D\ne,d,E\nf,b,F\ng,b,G\n",
-    );
-    for f in [
+    s.numpy_fixtures(&[
         "bundle.npz",
         "bundle-compressed.npz",
         "logits-f64.npy",
         "logits-fortran.npy",
         "labels-int64.npy",
         "objectness.npy",
-    ] {
-        s.write(
-            f,
-            &std::fs::read(format!("{fixtures}{f}")).expect("fixture"),
-        );
-    }
+    ]);
     let run = |extra: &[&str]| {
         let mut args = vec!["decode", "--taxonomy", "t.csv", "--thresholds", "0.6,0.4"];
         args.extend(extra);

@@ -143,24 +143,14 @@ fn decode_and_curve_write_csv() {
 #[test]
 fn npz_bundles_evaluate_like_separate_files() {
     let s = Scratch::new("npz");
-    let fixtures = concat!(env!("CARGO_MANIFEST_DIR"), "/../../tests/fixtures/numpy/");
-    s.write(
-        "t.csv",
-        b"id,parent,name\nb,a,B\na,,A\nc,a,C\nd,,D\ne,d,E\nf,b,F\ng,b,G\n",
-    );
-    for f in [
+    s.numpy_fixtures(&[
         "bundle.npz",
         "bundle-compressed.npz",
         "logits-f64.npy",
         "labels-int64.npy",
         "labels-str.npy",
         "objectness.npy",
-    ] {
-        s.write(
-            f,
-            &std::fs::read(format!("{fixtures}{f}")).expect("fixture"),
-        );
-    }
+    ]);
     let run = |args: &[&str]| json(&hedgerow(&s.dir, args));
     let base = [
         "evaluate",

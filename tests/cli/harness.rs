@@ -27,6 +27,24 @@ impl Scratch {
     }
 }
 
+impl Scratch {
+    /// The 7-node tree the numpy fixtures were written for, as `t.csv`, and the named files of
+    /// `tests/fixtures/numpy/` (written by numpy itself) beside it.
+    pub fn numpy_fixtures(&self, files: &[&str]) {
+        let fixtures = concat!(env!("CARGO_MANIFEST_DIR"), "/../../tests/fixtures/numpy/");
+        self.write(
+            "t.csv",
+            b"id,parent,name\nb,a,B\na,,A\nc,a,C\nd,,D\ne,d,E\nf,b,F\ng,b,G\n",
+        );
+        for f in files {
+            self.write(
+                f,
+                &std::fs::read(format!("{fixtures}{f}")).expect("fixture"),
+            );
+        }
+    }
+}
+
 impl Drop for Scratch {
     fn drop(&mut self) {
         let _ = std::fs::remove_dir_all(&self.dir);

@@ -9,6 +9,7 @@ use miniz_oxide::inflate::stream::{inflate, InflateState};
 use miniz_oxide::{DataFormat, MZFlush, MZStatus};
 
 use crate::harness::{hedgerow_peak, logits, npy_header, Peak, Run, Scratch, TAXONOMY};
+use crate::zip::{zip, Member};
 
 /// Zeros behind the labels header: 1.5 GB.
 const ZEROS: u64 = 1_500_000_000;
@@ -76,57 +77,6 @@ fn inflated_len(data: &[u8]) -> u64 {
             Err(e) => panic!("inflate: {e:?}"),
         }
     }
-}
-
-/// A zip archive as `np.savez` lays it out: each member's local header and data, then the
-/// central directory and its end record. `declared` is the uncompressed size written in both
-/// headers (the engine does not check CRCs, so they are 0).
-struct Member<'a> {
-    name: &'a str,
-    method: u16,
-    data: &'a [u8],
-    declared: u64,
-}
-
-fn zip(members: &[Member]) -> Vec<u8> {
-    let mut out = Vec::new();
-    let mut central = Vec::new();
-    for m in members {
-        let at = out.len() as u32;
-        let fixed = |sig: u32, out: &mut Vec<u8>| {
-            out.extend(sig.to_le_bytes());
-            if sig == 0x0201_4b50 {
-                out.extend(20u16.to_le_bytes()); // version made by
-            }
-            out.extend(20u16.to_le_bytes()); // version needed
-            out.extend(0u16.to_le_bytes()); // flags
-            out.extend(m.method.to_le_bytes());
-            out.extend([0u8; 4]); // time, date
-            out.extend(0u32.to_le_bytes()); // crc
-            out.extend((m.data.len() as u32).to_le_bytes());
-            out.extend((m.declared as u32).to_le_bytes());
-            out.extend((m.name.len() as u16).to_le_bytes());
-            out.extend(0u16.to_le_bytes()); // extra
-        };
-        fixed(0x0403_4b50, &mut out);
-        out.extend(m.name.as_bytes());
-        out.extend(m.data);
-        fixed(0x0201_4b50, &mut central);
-        central.extend([0u8; 8]); // comment length, disk, internal and external attributes
-        central.extend([0u8; 2]);
-        central.extend(at.to_le_bytes());
-        central.extend(m.name.as_bytes());
-    }
-    let offset = out.len() as u32;
-    out.extend(&central);
-    out.extend(0x0605_4b50u32.to_le_bytes());
-    out.extend([0u8; 4]);
-    out.extend((members.len() as u16).to_le_bytes());
-    out.extend((members.len() as u16).to_le_bytes());
-    out.extend((central.len() as u32).to_le_bytes());
-    out.extend(offset.to_le_bytes());
-    out.extend(0u16.to_le_bytes());
-    out
 }
 
 /// `hedgerow evaluate` on a bundle holding 4 rows of logits and the given labels member.

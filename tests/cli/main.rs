@@ -9,3 +9,5 @@ mod limits;
 mod nodes;
 mod readme;
 mod stream;
+#[path = "../common/zip.rs"]
+mod zip;

@@ -4,12 +4,14 @@
 //! plausible and hostile parts (proptest). Coverage-guided runs: `cargo xtask fuzz`.
 
 #[path = "../../fuzz/src/targets.rs"]
-mod targets;
+pub(crate) mod targets;
 
 use std::path::PathBuf;
 
 use proptest::prelude::*;
 use proptest::test_runner::Config;
+
+use crate::zip;
 
 fn corpus(target: &str) -> Vec<(PathBuf, Vec<u8>)> {
     let dir = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
@@ -155,50 +157,33 @@ fn zip_member() -> impl Strategy<Value = ZipMember> {
 }
 
 fn zip(members: &[ZipMember], damage: (usize, u8)) -> Vec<u8> {
-    let mut out = Vec::new();
-    let mut central = Vec::new();
-    for m in members {
-        let mut data = if m.deflate {
-            miniz_oxide::deflate::compress_to_vec(&m.npy, 6)
-        } else {
-            m.npy.clone()
-        };
-        data.truncate(data.len().saturating_sub(m.cut));
-        let size = (m.npy.len() as i64)
-            .saturating_add(m.size_error)
-            .clamp(0, u32::MAX as i64) as u32;
-        let method: u16 = if m.deflate { 8 } else { 0 };
-        let at = out.len() as u32;
-        let fields = |v: &mut Vec<u8>| {
-            v.extend(20u16.to_le_bytes());
-            v.extend(0u16.to_le_bytes());
-            v.extend(method.to_le_bytes());
-            v.extend([0u8; 8]);
-            v.extend((data.len() as u32).to_le_bytes());
-            v.extend(size.to_le_bytes());
-            v.extend((m.name.len() as u16).to_le_bytes());
-            v.extend(0u16.to_le_bytes());
-        };
-        out.extend(0x0403_4b50u32.to_le_bytes());
-        fields(&mut out);
-        out.extend(m.name.as_bytes());
-        out.extend(&data);
-        central.extend(0x0201_4b50u32.to_le_bytes());
-        central.extend(20u16.to_le_bytes());
-        fields(&mut central);
-        central.extend([0u8; 10]);
-        central.extend(at.to_le_bytes());
-        central.extend(m.name.as_bytes());
-    }
-    let offset = out.len() as u32;
-    out.extend(&central);
-    out.extend(0x0605_4b50u32.to_le_bytes());
-    out.extend([0u8; 4]);
-    out.extend((members.len() as u16).to_le_bytes());
-    out.extend((members.len() as u16).to_le_bytes());
-    out.extend((central.len() as u32).to_le_bytes());
-    out.extend(offset.to_le_bytes());
-    out.extend(0u16.to_le_bytes());
+    let stored: Vec<(Vec<u8>, u64)> = members
+        .iter()
+        .map(|m| {
+            let mut data = if m.deflate {
+                miniz_oxide::deflate::compress_to_vec(&m.npy, 6)
+            } else {
+                m.npy.clone()
+            };
+            data.truncate(data.len().saturating_sub(m.cut));
+            let size = (m.npy.len() as i64)
+                .saturating_add(m.size_error)
+                .clamp(0, u32::MAX as i64) as u64;
+            (data, size)
+        })
+        .collect();
+    let mut out = zip::zip(
+        &members
+            .iter()
+            .zip(&stored)
+            .map(|(m, (data, size))| zip::Member {
+                name: &m.name,
+                method: if m.deflate { 8 } else { 0 },
+                data,
+                declared: *size,
+            })
+            .collect::<Vec<_>>(),
+    );
     let (at, byte) = damage;
     if byte != 0 {
         let i = at % out.len();

@@ -13,3 +13,5 @@ mod properties;
 mod robustness;
 mod rules;
 mod worked;
+#[path = "../common/zip.rs"]
+mod zip;

@@ -6,20 +6,7 @@ use hedgerow_core::{npz, paths, Labels, Objectness, Profile, Taxonomy, Temperatu
 
 use crate::harness::{taxonomy, TREE};
 
-/// splitmix64: deterministic damage without extra crates.
-struct Mix(u64);
-impl Mix {
-    fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    fn below(&mut self, n: usize) -> usize {
-        (self.next() % n.max(1) as u64) as usize
-    }
-}
+use crate::fuzz::targets::Mix;
 
 fn damaged(original: &[u8], rng: &mut Mix) -> Vec<u8> {
     let mut b = original.to_vec();

@@ -22,6 +22,7 @@ use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
+use crate::args::Flags;
 use crate::rng::Rng;
 use anyhow::{bail, ensure, Context};
 use half::f16;
@@ -124,15 +125,6 @@ pub struct Summary {
     pub seconds: f64,
 }
 
-fn parse_u64(flag: &str, v: &str) -> anyhow::Result<u64> {
-    let v = v.replace('_', "");
-    let parsed = match v.strip_prefix("0x") {
-        Some(hex) => u64::from_str_radix(hex, 16),
-        None => v.parse(),
-    };
-    parsed.with_context(|| format!("{flag}: expected a non-negative integer, found {v:?}"))
-}
-
 /// Parse `gen-batch` arguments.
 pub fn parse_args(args: &[String]) -> anyhow::Result<Option<(Spec, PathBuf)>> {
     let (mut rows, mut nodes, mut depth, mut out) = (None, None, None, None);
@@ -144,29 +136,16 @@ pub fn parse_args(args: &[String]) -> anyhow::Result<Option<(Spec, PathBuf)>> {
         dtype: Dtype::F16,
         objectness: false,
     };
-    let mut it = args.iter();
-    while let Some(arg) = it.next() {
-        let (flag, inline) = match arg.split_once('=') {
-            Some((f, v)) if f.starts_with("--") => (f, Some(v.to_string())),
-            _ => (arg.as_str(), None),
-        };
-        let mut value = || -> anyhow::Result<String> {
-            match &inline {
-                Some(v) => Ok(v.clone()),
-                None => it
-                    .next()
-                    .cloned()
-                    .with_context(|| format!("{flag} needs a value")),
-            }
-        };
+    let mut flags = Flags::new(args);
+    while let Some(flag) = flags.next() {
         match flag {
-            "--rows" => rows = Some(parse_u64(flag, &value()?)?),
-            "--nodes" => nodes = Some(parse_u64(flag, &value()?)? as usize),
-            "--depth" => depth = Some(parse_u64(flag, &value()?)? as usize),
-            "--seed" => spec.seed = parse_u64(flag, &value()?)?,
-            "--out" => out = Some(PathBuf::from(value()?)),
+            "--rows" => rows = Some(flags.number()?),
+            "--nodes" => nodes = Some(flags.number()? as usize),
+            "--depth" => depth = Some(flags.number()? as usize),
+            "--seed" => spec.seed = flags.number()?,
+            "--out" => out = Some(PathBuf::from(flags.value()?)),
             "--dtype" => {
-                spec.dtype = match value()?.as_str() {
+                spec.dtype = match flags.value()?.as_str() {
                     "f16" | "float16" => Dtype::F16,
                     "f32" | "float32" => Dtype::F32,
                     other => bail!("--dtype: expected f16 or f32, found {other:?}"),

@@ -1,5 +1,6 @@
 //! Project tasks (build, test, generate, serve), run as `cargo xtask <task>`.
 
+mod args;
 mod batch;
 mod bench;
 mod demo;

@@ -21,6 +21,7 @@ use std::path::{Path, PathBuf};
 
 use anyhow::{bail, Context};
 
+use crate::args::Flags;
 use crate::{npy_write, npz_write};
 pub use rows::RowSpec;
 pub use tree::Limits;
@@ -242,39 +243,20 @@ pub fn parse_args(args: &[String]) -> anyhow::Result<Option<(Options, PathBuf)>>
     let mut out = None;
     let mut root_given = false;
     let mut exclude = Vec::new();
-    let mut it = args.iter();
-    while let Some(arg) = it.next() {
-        let (flag, inline) = match arg.split_once('=') {
-            Some((f, v)) if f.starts_with("--") => (f, Some(v.to_string())),
-            _ => (arg.as_str(), None),
-        };
-        let mut value = || -> anyhow::Result<String> {
-            match &inline {
-                Some(v) => Ok(v.clone()),
-                None => it
-                    .next()
-                    .cloned()
-                    .with_context(|| format!("{flag} needs a value")),
-            }
-        };
-        let mut number = |what: &str| -> anyhow::Result<usize> {
-            let v = value()?;
-            v.replace('_', "")
-                .parse()
-                .with_context(|| format!("{what}: expected a non-negative integer, found {v:?}"))
-        };
+    let mut flags = Flags::new(args);
+    while let Some(flag) = flags.next() {
         match flag {
-            "--out" => out = Some(PathBuf::from(value()?)),
+            "--out" => out = Some(PathBuf::from(flags.value()?)),
             "--root" => {
-                opts.root = value()?;
+                opts.root = flags.value()?;
                 root_given = true;
             }
-            "--exclude" => exclude.push(value()?),
-            "--rows" => opts.rows = number(flag)?,
-            "--seed" => opts.seed = number(flag)? as u64,
-            "--max-depth" => opts.limits.max_depth = number(flag)?,
-            "--max-nodes" => opts.limits.max_nodes = number(flag)?,
-            "--data" => opts.data = PathBuf::from(value()?),
+            "--exclude" => exclude.push(flags.value()?),
+            "--rows" => opts.rows = flags.number()? as usize,
+            "--seed" => opts.seed = flags.number()?,
+            "--max-depth" => opts.limits.max_depth = flags.number()? as usize,
+            "--max-nodes" => opts.limits.max_nodes = flags.number()? as usize,
+            "--data" => opts.data = PathBuf::from(flags.value()?),
             "--objectness" => opts.objectness = true,
             "--bundle" => opts.bundle = true,
             "-h" | "--help" => {

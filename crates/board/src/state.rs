@@ -84,8 +84,6 @@ pub struct Board {
     /// The slots as they were before a new logits file was chosen, put back by
     /// `LogitsCancelled`.
     before_choice: Option<Box<Snapshot>>,
-    /// What the file being staged replaced, until the batch rules have judged it.
-    replaced: Option<staging::Replaced>,
     /// A profile made for the staged taxonomy, applied when its batch becomes active.
     pub pending_profile: Option<PendingProfile>,
     /// Numbers the staged files in the order they were given.

@@ -10,15 +10,13 @@ use std::io::{self, Write};
 use std::path::PathBuf;
 use std::rc::Rc;
 
-use hedgerow_core::intake::{self, Kind};
-use hedgerow_core::{
-    Decoder, Errors, Labels, Objectness, Paths, Profile, Step, Taxonomy, Temperatures,
-};
+use hedgerow_core::intake;
+use hedgerow_core::{Decoder, Errors, Labels, Objectness, Paths, Step, Temperatures};
 
 pub use rows::Format;
 use rows::{Row, RowWriter};
 
-use crate::load::{self, display, keep, one, read, Failure, Sources};
+use crate::load::{self, keep, Failure, Sources};
 use crate::{Input, SettingArgs};
 
 /// What `hedgerow decode` was asked for, beside the inputs and settings.
@@ -33,18 +31,12 @@ pub struct Request<'a> {
 
 pub fn run(req: &Request) -> Result<(), Failure> {
     let input = req.input;
-    let tax_name = display(&input.taxonomy);
-    let tax_bytes = read(&input.taxonomy)?;
-    intake::given_as(&tax_name, &tax_bytes, Kind::Taxonomy).map_err(one)?;
-    let tax = Taxonomy::parse(&tax_bytes, &tax_name)?;
-    let (settings, temps) = load::settings(&tax, req.settings)?;
-    let profile = match &req.settings.profile {
-        Some(path) => Some((
-            display(path),
-            Profile::from_json(&read(path)?, &display(path), &tax)?,
-        )),
-        None => None,
-    };
+    let tax = load::taxonomy(&input.taxonomy)?;
+    let load::Chosen {
+        settings,
+        temperatures: temps,
+        profile,
+    } = load::settings(&tax, req.settings)?;
     let sources = Sources::open(input)?;
 
     let mut problems = Vec::new();

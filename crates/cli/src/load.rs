@@ -57,11 +57,12 @@ fn numbers(flag: &str, text: &str) -> Result<Vec<f64>, String> {
 
 impl Loaded {
     pub fn load(input: &Input, args: &SettingArgs) -> Result<Self, Failure> {
-        let tax_name = display(&input.taxonomy);
-        let tax_bytes = read(&input.taxonomy)?;
-        intake::given_as(&tax_name, &tax_bytes, Kind::Taxonomy).map_err(one)?;
-        let taxonomy = Taxonomy::parse(&tax_bytes, &tax_name)?;
-        let (settings, temperatures) = settings(&taxonomy, args)?;
+        let taxonomy = taxonomy(&input.taxonomy)?;
+        let Chosen {
+            settings,
+            temperatures,
+            ..
+        } = settings(&taxonomy, args)?;
         let sources = Sources::open(input)?;
         let mut problems = Vec::new();
         let labels = match &sources.labels {
@@ -184,30 +185,30 @@ impl Sources {
         let (ds, de) = Bundle::directory(&name, &tail, len).map_err(one)?;
         let dir = read_at(&mut file, ds, de - ds).map_err(cannot)?;
         let bundle = Bundle::open(&name, len, &dir).map_err(one)?;
-        let mut data_range = |m: &npz::Member| -> Result<(u64, u64), Failure> {
-            let local =
-                read_at(&mut file, m.local_header, npz::LOCAL_HEADER_BYTES).map_err(cannot)?;
+        let data_range = |file: &mut File, m: &npz::Member| -> Result<(u64, u64), Failure> {
+            let local = read_at(file, m.local_header, npz::LOCAL_HEADER_BYTES).map_err(cannot)?;
             bundle.data_range(m, &local).map_err(one)
         };
+        let logits = bundle
+            .member("logits")
+            .cloned()
+            .ok_or_else(|| Failure::Other(anyhow::anyhow!("bundle opened without logits")))?;
+        let range = data_range(&mut file, &logits)?;
         let wanted = bundle.members_wanted(&given);
         // The small members are capped by the logits' row count, read from the start of the
         // `logits` member (without it, they are not read: the logits' read says why).
-        let rows = match bundle.member("logits").cloned() {
-            Some(logits) if !wanted.is_empty() => {
-                let (s, e) = data_range(&logits)?;
-                let mut f = File::open(&input.logits).map_err(cannot)?;
-                let prefix = read_at(&mut f, s, (e - s).min(npz::PEEK_BYTES)).map_err(cannot)?;
+        let rows = match wanted.is_empty() {
+            true => None,
+            false => {
+                let peek = (range.1 - range.0).min(npz::PEEK_BYTES);
+                let prefix = read_at(&mut file, range.0, peek).map_err(cannot)?;
                 bundle.logits_rows(&logits, &prefix).ok()
             }
-            _ => None,
         };
         for (kind, m) in wanted {
             let Some(rows) = rows else { break };
-            let (s, e) = data_range(&m)?;
-            let data = {
-                let mut f = File::open(&input.logits).map_err(cannot)?;
-                read_at(&mut f, s, e - s).map_err(cannot)?
-            };
+            let (s, e) = data_range(&mut file, &m)?;
+            let data = read_at(&mut file, s, e - s).map_err(cannot)?;
             let member = Small {
                 name: bundle.member_name(m.key()),
                 bytes: bundle.inflate(&m, &data, rows).map_err(one)?,
@@ -217,11 +218,6 @@ impl Sources {
                 _ => objectness = Some(member),
             }
         }
-        let logits = bundle
-            .member("logits")
-            .cloned()
-            .ok_or_else(|| Failure::Other(anyhow::anyhow!("bundle opened without logits")))?;
-        let range = data_range(&logits)?;
         Ok(Sources {
             bundle_keys: Some(bundle.keys_text()),
             logits: LogitsSource {
@@ -332,20 +328,34 @@ fn node_threshold(tax: &Taxonomy, text: &str) -> Result<(u32, f64), String> {
     Ok((v, t))
 }
 
+/// The settings a command runs with, and the profile they started from (its name and
+/// contents), if one was given.
+pub(crate) struct Chosen {
+    pub settings: Settings,
+    pub temperatures: Temperatures,
+    pub profile: Option<(String, Profile)>,
+}
+
+/// The taxonomy file, refused when it is another kind of file.
+pub(crate) fn taxonomy(path: &Path) -> Result<Taxonomy, Failure> {
+    let name = display(path);
+    let bytes = read(path)?;
+    intake::given_as(&name, &bytes, Kind::Taxonomy).map_err(one)?;
+    Ok(Taxonomy::parse(&bytes, &name)?)
+}
+
 /// Settings from the profile (if any), overridden by explicit flags.
-pub(crate) fn settings(
-    tax: &Taxonomy,
-    args: &SettingArgs,
-) -> Result<(Settings, Temperatures), Failure> {
-    let (mut settings, mut temps) = match &args.profile {
+pub(crate) fn settings(tax: &Taxonomy, args: &SettingArgs) -> Result<Chosen, Failure> {
+    let (mut settings, mut temps, profile) = match &args.profile {
         Some(path) => {
             let profile = Profile::from_json(&read(path)?, &display(path), tax)?;
             let s = profile
                 .settings(tax)
                 .map_err(|k| Failure::Input(vec![format!("{}: {k}", display(path))]))?;
-            (s, profile.temperatures())
+            let temps = profile.temperatures();
+            (s, temps, Some((display(path), profile)))
         }
-        None => (Settings::default(), Temperatures::default()),
+        None => (Settings::default(), Temperatures::default(), None),
     };
     let mut problems = Vec::new();
     if let Some(rule) = &args.rule {
@@ -403,7 +413,11 @@ pub(crate) fn settings(
         problems.push(format!("--temperatures: {k}"));
     }
     if problems.is_empty() {
-        Ok((settings, temps))
+        Ok(Chosen {
+            settings,
+            temperatures: temps,
+            profile,
+        })
     } else {
         Err(Failure::Input(problems))
     }

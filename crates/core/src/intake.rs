@@ -357,19 +357,11 @@ impl Bundle {
             "objectness" => Objectness::npy_limit(rows, &logits),
             _ => Labels::npy_limit(rows, &logits),
         };
-        let mut flow = npz::Inflow::new(member).map_err(fail)?.limit(limit);
-        let mut out = Vec::new();
-        flow.feed(
-            data,
-            &mut |chunk: &[u8]| -> Result<(), ErrorKind> {
-                out.extend_from_slice(chunk);
-                Ok(())
-            },
-            |k| k,
-        )
-        .map_err(fail)?;
-        flow.finish().map_err(fail)?;
-        Ok(out)
+        npz::Inflow::new(member)
+            .map_err(fail)?
+            .limit(limit)
+            .inflate_whole(data)
+            .map_err(fail)
     }
 }
 

@@ -220,6 +220,22 @@ impl Inflow {
         self.header.as_ref()
     }
 
+    /// A small member's whole compressed data, inflated into one buffer that grows as the
+    /// bytes arrive (the directory's size is a claim, not a fact: the inflater refuses more).
+    pub fn inflate_whole(mut self, data: &[u8]) -> Result<Vec<u8>, ErrorKind> {
+        let mut out = Vec::new();
+        self.feed(
+            data,
+            &mut |chunk: &[u8]| -> Result<(), ErrorKind> {
+                out.extend_from_slice(chunk);
+                Ok(())
+            },
+            |k| k,
+        )?;
+        self.finish()?;
+        Ok(out)
+    }
+
     /// Decompressed bytes so far.
     pub fn produced(&self) -> u64 {
         self.produced
@@ -404,20 +420,7 @@ pub fn extract(bytes: &[u8], member: &Member) -> Result<Vec<u8>, ErrorKind> {
             member.name
         ))
     })?;
-    // The directory's size is a claim, not a fact: the output grows as it arrives, and the
-    // inflater refuses more than the claim.
-    let mut out = Vec::new();
-    let mut flow = Inflow::new(member)?;
-    flow.feed(
-        data,
-        &mut |chunk: &[u8]| -> Result<(), ErrorKind> {
-            out.extend_from_slice(chunk);
-            Ok(())
-        },
-        |k| k,
-    )?;
-    flow.finish()?;
-    Ok(out)
+    Inflow::new(member)?.inflate_whole(data)
 }
 
 /// The members of a bundle held in memory.

@@ -4,7 +4,7 @@
 
 use std::rc::Rc;
 
-use hedgerow_core::{CurveIndex, DepthDrag, Policy, Rule};
+use hedgerow_core::{CurveIndex, CurvePoint, DepthDrag, Policy, Rule};
 
 use super::Board;
 use crate::charts::{StopView, TradePoint, TradeoffView};
@@ -20,6 +20,15 @@ struct SweepKey {
     rule: Rule,
     policy: Policy,
     thresholds: Vec<u64>,
+}
+
+/// A curve point as chart 1 draws it (points without predictions have no place on it).
+fn trade_point(p: &CurvePoint) -> Option<TradePoint> {
+    Some(TradePoint {
+        threshold: p.threshold,
+        specificity: p.specificity?,
+        precision: p.precision?,
+    })
 }
 
 /// What the scores keep between actions, keyed on what they were computed for.
@@ -115,14 +124,8 @@ impl Board {
                 let mut d = DepthDrag::new(&a.taxonomy, &a.batch, &self.settings, depth);
                 let points = d
                     .sweep_within(&a.taxonomy, &a.batch, CURVE_RESOLUTION)
-                    .into_iter()
-                    .filter_map(|p| {
-                        Some(TradePoint {
-                            threshold: p.threshold,
-                            specificity: p.specificity?,
-                            precision: p.precision?,
-                        })
-                    })
+                    .iter()
+                    .filter_map(trade_point)
                     .collect();
                 self.sweep = Rc::new(points);
                 self.caches.sweep_key = Some(key);
@@ -134,17 +137,7 @@ impl Board {
 
     /// Chart 1's data.
     pub fn tradeoff_view(&self) -> TradeoffView {
-        let curve = self
-            .curve
-            .iter()
-            .filter_map(|p| {
-                Some(TradePoint {
-                    threshold: p.threshold,
-                    specificity: p.specificity?,
-                    precision: p.precision?,
-                })
-            })
-            .collect();
+        let curve = self.curve.iter().filter_map(trade_point).collect();
         let current = self.metrics.as_ref().and_then(|m| {
             Some(TradePoint {
                 threshold: f64::NAN,

@@ -193,8 +193,8 @@ impl Board {
             Slot::Labels => {
                 let note = self.notes.insert(slot, format!("{name}: read"));
                 let staged = self.staged(name, origin, bytes);
-                self.replaced = Some(Replaced::Labels(self.labels.replace(staged), note));
-                self.settle();
+                let replaced = Replaced::Labels(self.labels.replace(staged), note);
+                self.settle_replacing(Some(replaced));
             }
             Slot::Objectness => match Objectness::parse(&bytes, &name) {
                 Ok(o) => {
@@ -204,9 +204,8 @@ impl Board {
                         format!("{name}: {} rows", intake::thousands(o.values.len() as u64)),
                     );
                     let staged = self.staged(name, origin, Rc::new(o));
-                    self.replaced =
-                        Some(Replaced::Objectness(self.objectness.replace(staged), note));
-                    self.settle();
+                    let replaced = Replaced::Objectness(self.objectness.replace(staged), note);
+                    self.settle_replacing(Some(replaced));
                 }
                 Err(e) => {
                     self.errors.insert(slot, messages(&e));
@@ -474,6 +473,12 @@ impl Board {
     /// aside with a line saying why; new labels or objectness that do not fit are refused.
     /// Then assemble.
     pub(crate) fn settle(&mut self) {
+        self.settle_replacing(None);
+    }
+
+    /// [`Board::settle`] after a new labels or objectness file took the place of `replaced`,
+    /// which goes back into its slot if the new file is refused.
+    fn settle_replacing(&mut self, mut replaced: Option<Replaced>) {
         loop {
             let labels_rows = match self.parsed_labels() {
                 Some(Ok(l)) => Some(l.nodes.len() as u64),
@@ -495,7 +500,7 @@ impl Board {
                         self.labels = None;
                     } else {
                         self.errors.insert(Slot::Labels, messages(&e));
-                        self.refuse(Slot::Labels);
+                        self.refuse(Slot::Labels, &mut replaced);
                     }
                     continue;
                 }
@@ -521,17 +526,16 @@ impl Board {
             } else {
                 self.errors
                     .insert(leaving, vec![format!("{}: not used", m.refusal)]);
-                self.refuse(leaving);
+                self.refuse(leaving, &mut replaced);
             }
         }
-        self.replaced = None;
         self.assemble();
     }
 
     /// A new labels or objectness file is refused: the file it was to replace goes back into
     /// the slot (a refused file must not change the batch).
-    fn refuse(&mut self, slot: Slot) {
-        let note = match (slot, self.replaced.take()) {
+    fn refuse(&mut self, slot: Slot, replaced: &mut Option<Replaced>) {
+        let note = match (slot, replaced.take()) {
             (Slot::Labels, Some(Replaced::Labels(previous, note))) => {
                 self.labels = previous;
                 note
@@ -541,7 +545,7 @@ impl Board {
                 note
             }
             (_, other) => {
-                self.replaced = other;
+                *replaced = other;
                 self.unstage(slot);
                 None
             }
