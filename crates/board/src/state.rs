@@ -8,10 +8,12 @@
 //! engine's intake (`hedgerow_core::intake`); [`staging`] applies them to the slots.
 //!
 //! The parts: [`actions`] (what can happen), [`staging`] (slots, batches, set-aside files),
+//! [`profiles`] (profiles for the batch in use or the staged one),
 //! [`scores`] (metrics, curve and sweep from the active batch, never the softmax), [`text`]
 //! (the words the page shows).
 
 pub mod actions;
+pub mod profiles;
 pub mod scores;
 pub mod staging;
 pub mod text;
@@ -24,8 +26,9 @@ use hedgerow_core::{
 };
 
 pub use actions::{Action, IngestKey, Origin, Slot, Stored};
+pub use profiles::PendingProfile;
 pub use scores::Caches;
-pub use staging::{LogitsFile, ParsedLabels, PendingProfile, Snapshot, Staged};
+pub use staging::{LogitsFile, ParsedLabels, Snapshot, Staged};
 pub use text::{show_ratio, HELP};
 
 use crate::charts::TradePoint;
