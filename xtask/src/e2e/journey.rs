@@ -288,6 +288,10 @@ async fn classifier_after_demo(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     b.set_value("threshold-depth-4", "0.3").await?;
     let want = evaluate_files(c, &f, &["--thresholds", "0.5,0.8,0.5,0.3,0.5"])?;
     expect_headline(b, &want, "the classifier, depth 2 at 0.8, depth 4 at 0.3").await?;
+    // The page's wording on this batch: a typed value outside [0, 1] is refused in words
+    // and changes nothing.
+    let outside = "1.7 is outside [0, 1]: not applied";
+    super::page::refused(b, "threshold-depth-3", "1.7", outside, "0.5", &want).await?;
     screenshot(b, c, "journey-classifier-tuned.png").await
 }
 

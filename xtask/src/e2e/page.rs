@@ -550,7 +550,7 @@ async fn wait_gone(b: &Browser, id: &str, what: &str) -> anyhow::Result<()> {
 
 /// Type `raw` into field `id`: the message beside it must be `message`, the field must go back
 /// to `kept`, and the numbers must stay `want` (no logits read either).
-async fn refused(
+pub(super) async fn refused(
     b: &Browser,
     id: &str,
     raw: &str,
