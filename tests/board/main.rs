@@ -816,3 +816,24 @@ fn a_temperature_change_streams_the_bundles_logits_again() {
     );
     same_numbers(&mut b, &mut plain);
 }
+
+#[test]
+fn precision_shows_its_wilson_interval_over_the_predictions_it_counts() {
+    let b = loaded();
+    let mut m = b.metrics.clone().expect("metrics");
+    // Newcombe (1998), Statistics in Medicine 17:857–872, Table I: 81/263 has the Wilson
+    // interval 0.2553–0.3662 (recomputed with scipy.stats.binomtest(81, 263)
+    // .proportion_ci(method="wilson")). Under `exclude` the counts are correct / (correct + wrong).
+    m.unverifiable_policy = Policy::Exclude;
+    (m.correct, m.unverifiable, m.wrong) = (81, 40, 182);
+    assert_eq!(
+        hedgerow_board::state::show_precision_interval(&m).as_deref(),
+        Some("95 % 0.2553–0.3662 (Wilson, n = 263)")
+    );
+    // Under `credit` the unverifiable predictions count as right and are in n.
+    m.unverifiable_policy = Policy::Credit;
+    let line = hedgerow_board::state::show_precision_interval(&m).expect("interval");
+    assert!(line.ends_with("(Wilson, n = 303)"), "{line}");
+    (m.correct, m.unverifiable, m.wrong) = (0, 0, 0);
+    assert_eq!(hedgerow_board::state::show_precision_interval(&m), None);
+}

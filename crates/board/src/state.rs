@@ -29,7 +29,7 @@ pub use actions::{Action, IngestKey, Origin, Slot, Stored};
 pub use profiles::PendingProfile;
 pub use scores::Caches;
 pub use staging::{LogitsFile, ParsedLabels, Snapshot, Staged};
-pub use text::{show_ratio, HELP};
+pub use text::{show_precision_interval, show_ratio, thin_thousands, HELP};
 
 use crate::charts::TradePoint;
 

@@ -1,6 +1,8 @@
 //! The words and number formats the page shows, beside the state they describe.
 
-use hedgerow_core::Errors;
+use hedgerow_core::nodes::precision_counts;
+use hedgerow_core::stats::{wilson, Z95};
+use hedgerow_core::{Errors, Metrics};
 
 pub(crate) fn clamp01(v: f64) -> f64 {
     if v.is_nan() {
@@ -34,6 +36,32 @@ pub(crate) fn join(values: &[f64]) -> String {
 /// A ratio as the page shows it: 4 decimals, or "n/a" with no denominator.
 pub fn show_ratio(v: Option<f64>) -> String {
     v.map_or_else(|| "n/a".to_string(), |v| format!("{v:.4}"))
+}
+
+/// Precision's Wilson score 95 % interval beside the headline figure, with the number of
+/// predictions it counts under the policy: "95 % 0.8990–0.9120 (Wilson, n = 12 345)".
+pub fn show_precision_interval(m: &Metrics) -> Option<String> {
+    let (k, n) = precision_counts(m.unverifiable_policy, m.correct, m.unverifiable, m.wrong);
+    let i = wilson(k, n, Z95)?;
+    Some(format!(
+        "95 % {:.4}–{:.4} (Wilson, n = {})",
+        i.low,
+        i.high,
+        thin_thousands(n)
+    ))
+}
+
+/// Thousands separated by a thin space, as the page shows counts.
+pub fn thin_thousands(n: u64) -> String {
+    let digits = n.to_string();
+    let mut out = String::new();
+    for (i, c) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i) % 3 == 0 {
+            out.push('\u{2009}');
+        }
+        out.push(c);
+    }
+    out
 }
 
 /// One line explaining each headline number.

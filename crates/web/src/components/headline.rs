@@ -1,6 +1,6 @@
 //! The headline numbers of the current settings on the batch in use.
 
-use hedgerow_board::state::{show_ratio, HELP};
+use hedgerow_board::state::{show_precision_interval, show_ratio, thin_thousands, HELP};
 use hedgerow_core::Metrics;
 use yew::prelude::*;
 
@@ -19,17 +19,8 @@ fn help(key: &str) -> (&'static str, &'static str) {
         .map_or(("", ""), |(_, label, help)| (label, help))
 }
 
-/// Thousands separated by a thin space.
 fn count(n: u64) -> String {
-    let digits = n.to_string();
-    let mut out = String::new();
-    for (i, c) in digits.chars().enumerate() {
-        if i > 0 && (digits.len() - i) % 3 == 0 {
-            out.push('\u{2009}');
-        }
-        out.push(c);
-    }
-    out
+    thin_thousands(n)
 }
 
 fn share(part: u64, whole: u64) -> Option<AttrValue> {
@@ -45,6 +36,7 @@ pub fn headline(props: &HeadlineProps) -> Html {
         html! { <Metric key_name={key} label={label} value={ratio(f)} help={help} class={classes!(class)} /> }
     };
     let (pred_label, pred_help) = help("predictions");
+    let (prec_label, prec_help) = help("precision");
     let int = |f: fn(&Metrics) -> u64| m.map_or(NONE.to_string(), |m| f(m).to_string());
     let predictions = m.map_or(0, |m| m.predictions);
     let rows = m.map_or(0, |m| m.rows);
@@ -68,7 +60,8 @@ pub fn headline(props: &HeadlineProps) -> Html {
             <div class="metrics metrics-big">
                 <Metric key_name="predictions" label={pred_label} value={int(|m| m.predictions)} help={pred_help} class={classes!("big")}
                     detail={share(predictions, rows).map(|s| AttrValue::from(format!("{s} of rows")))} />
-                { ratio_metric("precision", |m| m.precision, "big") }
+                <Metric key_name="precision" label={prec_label} value={ratio(|m| m.precision)} help={prec_help} class={classes!("big")}
+                    detail={m.and_then(show_precision_interval).map(AttrValue::from)} />
                 { ratio_metric("specificity", |m| m.specificity, "big") }
                 { ratio_metric("reward", |m| m.reward, "big") }
             </div>
