@@ -366,3 +366,44 @@ fn a_closed_pipe_ends_quietly() {
         );
     }
 }
+
+/// Scoring commands apply a profile as it was scored: without the objectness it was scored with,
+/// every row would predict and its object threshold would be ignored without a word.
+#[test]
+fn scoring_commands_refuse_a_profile_scored_with_objectness_without_it() {
+    let s = Scratch::new("guard-scoring");
+    let profile = demo_profile(&s);
+    let (t, l, y, o) = (
+        demo_file("taxonomy.csv"),
+        demo_file("logits.npy"),
+        demo_file("labels.csv"),
+        demo_file("objectness.npy"),
+    );
+    for command in ["evaluate", "curve", "nodes"] {
+        let base = [
+            command,
+            "--taxonomy",
+            &t,
+            "--logits",
+            &l,
+            "--labels",
+            &y,
+            "--profile",
+            &profile,
+        ];
+        let refused = hedgerow(&s.dir, &base);
+        assert_eq!(refused.code, 2, "{command}: {}", refused.stderr);
+        assert!(
+            refused
+                .stderr
+                .contains("p.json: this profile was scored with objectness (object threshold")
+                && refused.stderr.contains("expected --objectness FILE")
+                && !refused.stderr.contains("--no-objectness"),
+            "{command}: {}",
+            refused.stderr
+        );
+        let mut given = base.to_vec();
+        given.extend(["--objectness", &o]);
+        ok(hedgerow(&s.dir, &given));
+    }
+}

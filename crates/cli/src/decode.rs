@@ -52,15 +52,13 @@ pub fn run(req: &Request) -> Result<(), Failure> {
         }
         _ => None,
     };
-    if let Some((name, p)) = &profile {
-        if p.objectness == Some(true) && sources.objectness.is_none() && !req.no_objectness {
-            problems.push(format!(
-                "{name}: this profile was scored with objectness (object threshold {}): expected \
-                 --objectness FILE (or an `objectness` array in {}); pass --no-objectness to \
-                 decode with P(root) = 1 and no object threshold",
-                settings.thresholds.object, sources.logits.name
-            ));
-        }
+    if !req.no_objectness {
+        problems.extend(load::objectness_wanted(
+            &profile,
+            &sources,
+            &settings,
+            Some("--no-objectness"),
+        ));
     }
 
     let thresholds = settings.thresholds.resolve(&tax);

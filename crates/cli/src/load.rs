@@ -61,10 +61,13 @@ impl Loaded {
         let Chosen {
             settings,
             temperatures,
-            ..
+            profile,
         } = settings(&taxonomy, args)?;
         let sources = Sources::open(input)?;
         let mut problems = Vec::new();
+        if let Some(line) = objectness_wanted(&profile, &sources, &settings, None) {
+            problems.push(line);
+        }
         let labels = match &sources.labels {
             Some(small) => keep(
                 &mut problems,
@@ -113,6 +116,32 @@ impl Loaded {
             settings,
         })
     }
+}
+
+/// A profile scored with objectness needs objectness to be applied as it was scored: without
+/// it every row would predict and the object threshold would be ignored without a word.
+/// `escape` names a flag that lets the command go on without it (decode's `--no-objectness`).
+pub(crate) fn objectness_wanted(
+    profile: &Option<(String, Profile)>,
+    sources: &Sources,
+    settings: &Settings,
+    escape: Option<&str>,
+) -> Option<String> {
+    let (name, p) = profile.as_ref()?;
+    if p.objectness != Some(true) || sources.objectness.is_some() {
+        return None;
+    }
+    let mut line = format!(
+        "{name}: this profile was scored with objectness (object threshold {}): expected \
+         --objectness FILE (or an `objectness` array in {})",
+        settings.thresholds.object, sources.logits.name
+    );
+    if let Some(flag) = escape {
+        line.push_str(&format!(
+            "; pass {flag} to decode with P(root) = 1 and no object threshold"
+        ));
+    }
+    Some(line)
 }
 
 /// The value, or its problems noted so every input's problems are reported together.
