@@ -1,0 +1,189 @@
+//! The page's per-node table: its numbers are the core's `node_report` under the settings in
+//! use, after any sequence of threshold moves (the incremental counts equal a recomputation),
+//! the CSV is the command line's bytes, and the table sorts, filters and pages.
+
+use hedgerow_board::nodes::{csv, table, Column, TableQuery};
+use hedgerow_board::state::{Action, Board};
+use hedgerow_core::nodes::report_csv;
+use hedgerow_core::{node_report, Rule};
+
+use super::loaded;
+
+/// The board's report equals a full pass of the core over the same batch and settings.
+fn check_report(b: &Board, what: &str) {
+    let a = b.active.as_ref().expect("active");
+    let want = node_report(&a.taxonomy, &a.batch, &b.settings);
+    let got = b.node_report.as_deref().expect("a node report");
+    assert!(got == &want, "{what}: the board's per-node report differs");
+}
+
+/// splitmix64 (Steele, Lea & Flood, OOPSLA 2014): a small deterministic generator for the
+/// random walk below.
+fn next(state: &mut u64) -> u64 {
+    *state = state.wrapping_add(0x9e37_79b9_7f4a_7c15);
+    let mut z = *state;
+    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+    z ^ (z >> 31)
+}
+
+#[test]
+fn the_report_is_the_cores_once_loaded() {
+    let b = loaded();
+    check_report(&b, "loaded");
+    let root = &b.node_report.as_deref().expect("report").root;
+    let rows = b.active.as_ref().expect("active").batch.len() as u64;
+    assert_eq!(root.labelled, rows - unlabelled(&b), "every labelled row is under the root");
+}
+
+fn unlabelled(b: &Board) -> u64 {
+    let a = b.active.as_ref().expect("active");
+    (0..a.batch.len())
+        .filter(|&r| a.batch.label(r) == hedgerow_core::taxonomy::NONE)
+        .count() as u64
+}
+
+#[test]
+fn incremental_counts_equal_a_recomputation_after_random_moves() {
+    let mut b = loaded();
+    let tax = b.active.as_ref().expect("active").taxonomy.clone();
+    let d = tax.max_depth();
+    let mut s = 0x5eed_u64;
+    let unit = |s: &mut u64| (next(s) >> 11) as f64 / (1u64 << 53) as f64;
+    for step in 0..80 {
+        let action = match next(&mut s) % 10 {
+            // Mostly drags of the focused depth (the incremental path), small and large.
+            0..=4 => Action::SetDepth {
+                depth: b.focus,
+                value: unit(&mut s),
+            },
+            5 => Action::Focus(1 + (next(&mut s) as usize % d)),
+            6 => Action::SetDepth {
+                depth: 1 + (next(&mut s) as usize % d),
+                value: unit(&mut s),
+            },
+            7 => {
+                let v = (next(&mut s) % tax.len() as u64) as u32;
+                let value = (next(&mut s) % 3 != 0).then(|| unit(&mut s));
+                Action::SetNodeThreshold {
+                    id: tax.id(v).to_string(),
+                    value,
+                }
+            }
+            8 => Action::SetRule(if next(&mut s) % 2 == 0 {
+                Rule::Conditional
+            } else {
+                Rule::Cumulative
+            }),
+            _ => Action::SetObject(unit(&mut s)),
+        };
+        let what = format!("step {step}: {action:?}");
+        b.apply(action);
+        check_report(&b, &what);
+    }
+}
+
+#[test]
+fn a_node_threshold_is_set_and_cleared_by_id() {
+    let mut b = loaded();
+    b.apply(Action::SetNodeThreshold {
+        id: "glass".into(),
+        value: Some(0.9),
+    });
+    let tax = b.active.as_ref().expect("active").taxonomy.clone();
+    let glass = tax.lookup("glass").expect("glass");
+    assert_eq!(b.settings.thresholds.nodes, vec![(glass, 0.9)]);
+    assert_eq!(b.stored().nodes.get("glass"), Some(&0.9));
+    check_report(&b, "set");
+    let rec = &b.node_report.as_deref().expect("report").nodes[glass as usize];
+    assert!(rec.overridden && rec.threshold == 0.9);
+    // Out of range, or an id the taxonomy lacks: nothing changes.
+    for (id, value) in [("glass", Some(1.5)), ("glass", Some(f64::NAN)), ("nope", Some(0.2))] {
+        b.apply(Action::SetNodeThreshold {
+            id: id.into(),
+            value,
+        });
+        assert_eq!(b.settings.thresholds.nodes, vec![(glass, 0.9)], "{id} {value:?}");
+    }
+    b.apply(Action::SetNodeThreshold {
+        id: "glass".into(),
+        value: None,
+    });
+    assert!(b.settings.thresholds.nodes.is_empty());
+    assert!(b.stored().nodes.is_empty());
+    check_report(&b, "cleared");
+}
+
+#[test]
+fn the_csv_is_the_command_lines() {
+    let b = loaded();
+    let a = b.active.as_ref().expect("active");
+    let report = b.node_report.as_deref().expect("report");
+    let text = csv(&a.taxonomy, report).expect("csv");
+    let want = report_csv(&a.taxonomy, &node_report(&a.taxonomy, &a.batch, &b.settings))
+        .expect("core csv");
+    assert_eq!(text.as_bytes(), want.as_slice());
+    assert!(text.starts_with("id,name,depth,threshold,overridden,stops,correct,"));
+    assert_eq!(text.lines().count(), a.taxonomy.len() + 2, "header, root, nodes");
+}
+
+#[test]
+fn the_table_sorts_filters_and_pages() {
+    let b = loaded();
+    let tax = b.active.as_ref().expect("active").taxonomy.clone();
+    let report = b.node_report.as_deref().expect("report");
+    let all = table(&tax, report, &TableQuery::default());
+    assert_eq!(all.matching, tax.len() + 1);
+    assert_eq!(all.pages, (tax.len() + 1).div_ceil(50));
+    assert_eq!(all.rows[0].node, tax.root(), "the root first in file order");
+    assert_eq!(all.rows[1].id, tax.id(0));
+
+    let by_wrong = TableQuery::default().clicked(Column::Wrong);
+    assert!(by_wrong.descending, "counts start high to low");
+    let page = table(&tax, report, &by_wrong);
+    let most = report
+        .nodes
+        .iter()
+        .chain([&report.root])
+        .map(|r| r.wrong)
+        .max();
+    assert_eq!(page.rows.first().map(|r| r.wrong), most);
+    assert!(page.rows.windows(2).all(|w| w[0].wrong >= w[1].wrong));
+    let reversed = table(&tax, report, &by_wrong.clicked(Column::Wrong));
+    assert!(reversed.rows.windows(2).all(|w| w[0].wrong <= w[1].wrong));
+
+    let by_precision = table(&tax, report, &TableQuery::default().clicked(Column::Precision));
+    let p: Vec<f64> = by_precision
+        .rows
+        .iter()
+        .map(|r| r.precision.unwrap_or(-1.0))
+        .collect();
+    assert!(p.windows(2).all(|w| w[0] >= w[1]), "{p:?}");
+
+    let glass = TableQuery {
+        filter: "GLASS".into(),
+        ..TableQuery::default()
+    };
+    let page = table(&tax, report, &glass);
+    assert!(page.matching >= 1);
+    assert!(page.rows.iter().all(|r| {
+        r.id.to_lowercase().contains("glass") || r.name.to_lowercase().contains("glass")
+    }));
+
+    let busy = TableQuery {
+        min_rows: 500,
+        ..TableQuery::default()
+    };
+    let page = table(&tax, report, &busy);
+    assert!(page.matching < tax.len());
+    assert!(page.rows.iter().all(|r| r.labelled.max(r.stops) >= 500));
+
+    let last = TableQuery {
+        page: 999,
+        page_size: 20,
+        ..TableQuery::default()
+    };
+    let page = table(&tax, report, &last);
+    assert_eq!(page.page, page.pages - 1, "clamped to the last page");
+    assert_eq!(page.rows.len(), (tax.len() + 1) - 20 * (page.pages - 1));
+}
