@@ -2,10 +2,13 @@
 //! use, after any sequence of threshold moves (the incremental counts equal a recomputation),
 //! the CSV is the command line's bytes, and the table sorts, filters and pages.
 
-use hedgerow_board::nodes::{csv, table, Column, TableQuery};
+use hedgerow_board::charts::icicle::FATE_LABELS;
+use hedgerow_board::charts::{draw_icicle, icicle_view};
+use hedgerow_board::nodes::{csv, table, Column, Fate, TableQuery};
+use plotters::prelude::*;
 use hedgerow_board::state::{Action, Board};
 use hedgerow_core::nodes::report_csv;
-use hedgerow_core::{node_report, Rule};
+use hedgerow_core::{node_report, Outcome, Rule};
 
 use super::loaded;
 
@@ -186,4 +189,93 @@ fn the_table_sorts_filters_and_pages() {
     let page = table(&tax, report, &last);
     assert_eq!(page.page, page.pages - 1, "clamped to the last page");
     assert_eq!(page.rows.len(), (tax.len() + 1) - 20 * (page.pages - 1));
+}
+
+/// What happens to the rows labelled under each node, counted naively from each row's decode
+/// (`hedgerow_core::decode_row`), against the board's incremental fates.
+fn check_fates(b: &Board) {
+    let a = b.active.as_ref().expect("active");
+    let (tax, batch) = (&a.taxonomy, &a.batch);
+    let thresholds = b.settings.thresholds.resolve(tax);
+    let n = tax.len() + 1;
+    let mut want = vec![Fate::default(); n];
+    for r in 0..batch.len() {
+        let g = batch.label(r);
+        if g == hedgerow_core::taxonomy::NONE {
+            continue;
+        }
+        let d = hedgerow_core::decode_row(tax, batch, &b.settings, &thresholds, r);
+        for v in tax.path(g) {
+            let f = &mut want[*v as usize];
+            f.labelled += 1;
+            let depth_v = if *v == tax.root() { 0 } else { tax.depth(*v) };
+            match d.outcome {
+                Outcome::Abstained => f.abstained += 1,
+                Outcome::Wrong => f.wrong += 1,
+                Outcome::Correct if d.depth < depth_v => f.above += 1,
+                _ => f.reached += 1,
+            }
+        }
+    }
+    let got = b.node_fates.as_deref().expect("fates");
+    assert_eq!(got, want.as_slice());
+}
+
+#[test]
+fn fates_follow_the_thresholds() {
+    let mut b = loaded();
+    check_fates(&b);
+    for (depth, value) in [(2, 0.8), (2, 0.1), (1, 0.95)] {
+        b.apply(Action::SetDepth { depth, value });
+        check_fates(&b);
+    }
+    b.apply(Action::SetObject(0.9));
+    check_fates(&b);
+}
+
+#[test]
+fn the_icicle_lays_out_and_draws_its_cells() {
+    let b = loaded();
+    let a = b.active.as_ref().expect("active");
+    let tax = &a.taxonomy;
+    let fates = b.node_fates.as_deref().expect("fates");
+    let view = icicle_view(tax, fates, tax.root());
+    assert_eq!(view.rows, tax.max_depth() + 1);
+    assert_eq!(view.cells[0].node, tax.root());
+    assert_eq!((view.cells[0].x0, view.cells[0].x1), (0.0, 1.0));
+    // Children sit inside their parent, and no wider than its share.
+    for c in &view.cells[1..] {
+        let parent = view
+            .cells
+            .iter()
+            .find(|p| p.node == tax.parent(c.node) || (c.row == 1 && p.node == tax.root()))
+            .expect("parent drawn");
+        assert!(c.x0 >= parent.x0 - 1e-9 && c.x1 <= parent.x1 + 1e-9, "{}", c.label);
+        assert_eq!(c.row, parent.row + 1);
+    }
+    // Focus a subtree: it takes the whole width.
+    let glass = tax.lookup("glass").expect("glass");
+    let focused = icicle_view(tax, fates, glass);
+    assert_eq!(focused.cells[0].node, glass);
+    assert_eq!((focused.cells[0].x0, focused.cells[0].x1), (0.0, 1.0));
+    assert!(focused.cells.iter().all(|c| c.node == glass || tax.path(c.node).contains(&glass)));
+
+    // Drawn to SVG: the legend and every cell wide enough to be drawn.
+    let mut svg = String::new();
+    {
+        let area = SVGBackend::with_string(&mut svg, (900, 320)).into_drawing_area();
+        draw_icicle(&area, &focused, Some(glass)).expect("drawn");
+        area.present().expect("presented");
+    }
+    for label in FATE_LABELS {
+        assert!(svg.contains(label), "legend {label}");
+    }
+    assert!(svg.contains("\nglass\n"), "the focused cell's label");
+    let rects = svg.matches("<rect").count();
+    assert!(rects > focused.cells.len(), "{rects} rects for {} cells", focused.cells.len());
+    // The teal of "reached" fills part of the focused cell.
+    assert!(svg.to_uppercase().contains("#1F7A6D"));
+    // A click in the middle of the top band lands on the focused node.
+    let hit = focused.cell_at((900, 320), (450, 60)).map(|c| c.node);
+    assert_eq!(hit, Some(glass));
 }

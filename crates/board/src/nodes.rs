@@ -15,6 +15,40 @@ pub struct NodeTracker {
     /// Per row: the depth its path stops at (`None`: it abstains).
     stops: Vec<Option<u8>>,
     counts: NodeCounts,
+    /// Per node (the root at `len()`): labelled rows at or below it that abstain.
+    abstained: Vec<u64>,
+}
+
+/// What happens to the labelled rows at or below one node (the taxonomy view's colours). The
+/// four parts add up to `labelled`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct Fate {
+    pub labelled: u64,
+    /// The prediction is the node or deeper, on the label's path or below a coarse label.
+    pub reached: u64,
+    /// The prediction is right but stops above the node.
+    pub above: u64,
+    /// The prediction is wrong.
+    pub wrong: u64,
+    /// The row did not predict.
+    pub abstained: u64,
+}
+
+/// Add or remove row `r`'s label path in `abstained`.
+fn count_abstained(tax: &Taxonomy, batch: &Batch, abstained: &mut [u64], r: usize, add: bool) {
+    let g = batch.label(r);
+    if g == hedgerow_core::taxonomy::NONE {
+        return;
+    }
+    for d in 0..=tax.depth(g) {
+        if let Some(x) = abstained.get_mut(tax.ancestor(g, d) as usize) {
+            *x = if add {
+                x.wrapping_add(1)
+            } else {
+                x.wrapping_sub(1)
+            };
+        }
+    }
 }
 
 impl NodeTracker {
@@ -22,14 +56,22 @@ impl NodeTracker {
     pub fn new(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Self {
         let thresholds = settings.thresholds.resolve(tax);
         let mut counts = NodeCounts::new(tax);
+        let mut abstained = vec![0; tax.len() + 1];
         let stops = (0..batch.len())
             .map(|r| {
                 let s = hedgerow_core::eval::stop_depth(tax, batch, settings.rule, &thresholds, r);
                 counts.add(tax, batch, r, s);
+                if s.is_none() {
+                    count_abstained(tax, batch, &mut abstained, r, true);
+                }
                 s.map(|s| s as u8)
             })
             .collect();
-        NodeTracker { stops, counts }
+        NodeTracker {
+            stops,
+            counts,
+            abstained,
+        }
     }
 
     /// Row `r` now stops at `to` (it stopped at `from`; from a drag's moved rows).
@@ -52,6 +94,9 @@ impl NodeTracker {
             if new != *slot {
                 self.counts
                     .shift(tax, batch, r, slot.map(usize::from), s);
+                if slot.is_none() != new.is_none() {
+                    count_abstained(tax, batch, &mut self.abstained, r, new.is_none());
+                }
                 *slot = new;
                 flipped += 1;
             }
@@ -67,6 +112,35 @@ impl NodeTracker {
     /// Where each row stops as they stand (`None`: abstains).
     pub fn stop(&self, r: usize) -> Option<usize> {
         self.stops.get(r).copied().flatten().map(usize::from)
+    }
+
+    /// Per node (the root at `len()`), what happens to the rows labelled at or below it.
+    /// O(nodes + distinct (label, wrong prediction) pairs × depth).
+    pub fn fates(&self, tax: &Taxonomy) -> Vec<Fate> {
+        let n = tax.len() + 1;
+        let mut wrong = vec![0u64; n];
+        for ((g, _), k) in self.counts.wrong_pairs() {
+            for d in 0..=tax.depth(g) {
+                if let Some(x) = wrong.get_mut(tax.ancestor(g, d) as usize) {
+                    *x += k;
+                }
+            }
+        }
+        (0..n as u32)
+            .map(|v| {
+                let labelled = self.counts.labelled(v);
+                let above = self.counts.stopped_above(v);
+                let wrong = wrong.get(v as usize).copied().unwrap_or(0);
+                let abstained = self.abstained.get(v as usize).copied().unwrap_or(0);
+                Fate {
+                    labelled,
+                    reached: labelled.saturating_sub(above + wrong + abstained),
+                    above,
+                    wrong,
+                    abstained,
+                }
+            })
+            .collect()
     }
 
     /// The report under `settings`' thresholds and policy (what `hedgerow nodes` prints).

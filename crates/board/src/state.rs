@@ -78,6 +78,8 @@ pub struct Board {
     /// Where it fails, node by node, under the settings in use (kept in step with the rows
     /// that flip: `crate::nodes::NodeTracker`).
     pub node_report: Option<Rc<hedgerow_core::NodeReport>>,
+    /// Per node, what happens to the rows labelled under it (the taxonomy view's colours).
+    pub node_fates: Option<Rc<Vec<crate::nodes::Fate>>>,
     caches: Caches,
     /// Bumped whenever a new batch becomes active (for caches keyed on it).
     pub generation: usize,

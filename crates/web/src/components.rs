@@ -11,6 +11,7 @@ pub mod files_panel;
 pub mod headline;
 pub mod metric;
 pub mod node_overrides;
+pub mod node_table;
 pub mod read_progress;
 pub mod temperature_field;
 pub mod threshold_control;

@@ -53,6 +53,7 @@ impl Board {
         let Some(a) = self.active.clone() else {
             self.metrics = None;
             self.node_report = None;
+            self.node_fates = None;
             return;
         };
         if self.settings.thresholds.validate().is_err() {
@@ -154,6 +155,7 @@ impl Board {
         }
         if let Some((_, tracker)) = nodes.as_ref() {
             self.node_report = Some(Rc::new(tracker.report(&a.taxonomy, &self.settings)));
+            self.node_fates = Some(Rc::new(tracker.fates(&a.taxonomy)));
         }
     }
 
