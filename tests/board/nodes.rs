@@ -279,3 +279,58 @@ fn the_icicle_lays_out_and_draws_its_cells() {
     let hit = focused.cell_at((900, 320), (450, 60)).map(|c| c.node);
     assert_eq!(hit, Some(glass));
 }
+
+#[test]
+fn the_inspector_lists_filtered_rows_and_walks_one_path() {
+    use hedgerow_board::inspect::{list_rows, row_detail, RowFilter, Source};
+    let mut b = loaded();
+    let glass = {
+        let tax = &b.active.as_ref().expect("active").taxonomy;
+        tax.lookup("glass").expect("glass")
+    };
+    b.apply(Action::SetNodeThreshold {
+        id: "glass".into(),
+        value: Some(0.7),
+    });
+    let a = b.active.as_ref().expect("active");
+    let (tax, batch) = (&a.taxonomy, &a.batch);
+    let thresholds = b.settings.thresholds.resolve(tax);
+    let filter = RowFilter {
+        outcome: Some(Outcome::Wrong),
+        label_under: Some(glass),
+        ..RowFilter::default()
+    };
+    let page = list_rows(tax, batch, &b.settings, &filter, 0, 15);
+    assert_eq!(page.rows.len(), 15);
+    let want: Vec<usize> = (0..batch.len())
+        .filter(|&r| {
+            let g = batch.label(r);
+            g != hedgerow_core::taxonomy::NONE
+                && tax.path(g).contains(&glass)
+                && hedgerow_core::decode_row(tax, batch, &b.settings, &thresholds, r).outcome
+                    == Outcome::Wrong
+        })
+        .take(20)
+        .collect();
+    let got: Vec<usize> = page.rows.iter().map(|l| l.row).collect();
+    assert_eq!(got, want[..15]);
+    let next = list_rows(tax, batch, &b.settings, &filter, page.next.expect("more"), 5);
+    assert_eq!(next.rows.iter().map(|l| l.row).collect::<Vec<_>>(), want[15..20]);
+
+    // One row's path: the core's steps, thresholds from the depth or the node.
+    for &r in &want[..5] {
+        let d = row_detail(tax, batch, &b.settings, r).expect("row");
+        let core = hedgerow_core::decode_row(tax, batch, &b.settings, &thresholds, r);
+        assert_eq!(d.steps.len(), core.path.len() + 1);
+        for (s, c) in d.steps[1..].iter().zip(&core.path) {
+            assert_eq!((s.node, s.conditional, s.cumulative), (c.node, c.conditional, c.cumulative));
+            let own = s.node == glass;
+            assert_eq!(s.source, if own { Source::Node } else { Source::Depth });
+            assert_eq!(s.threshold, thresholds[s.node as usize]);
+            assert_eq!(s.taken, core.predicted.is_some() && s.depth <= core.depth);
+        }
+        assert_eq!(d.outcome, Outcome::Wrong);
+        assert!(d.why.starts_with("stopped at depth") || d.why.starts_with("reached a leaf"), "{}", d.why);
+    }
+    assert!(row_detail(tax, batch, &b.settings, batch.len()).is_none());
+}

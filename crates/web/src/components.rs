@@ -9,6 +9,7 @@ pub mod error_area;
 pub mod file_picker;
 pub mod files_panel;
 pub mod headline;
+pub mod icicle;
 pub mod metric;
 pub mod node_overrides;
 pub mod node_table;

@@ -14,6 +14,7 @@ use super::error_area::ErrorArea;
 use super::file_picker::FilePicker;
 use super::files_panel::FilesPanel;
 use super::headline::Headline;
+use super::icicle::Icicle;
 use super::node_table::{NodeTable, Shared};
 use super::read_progress::ReadProgress;
 use crate::browser;
@@ -55,6 +56,13 @@ pub fn app() -> Html {
     let on_select = {
         let selected = selected.clone();
         Callback::from(move |v: u32| selected.set(Some(v)))
+    };
+
+    // The taxonomy view's focused subtree (`None`: the whole tree).
+    let icicle_focus = use_state(|| None::<u32>);
+    let on_icicle_focus = {
+        let icicle_focus = icicle_focus.clone();
+        Callback::from(move |v: u32| icicle_focus.set(Some(v)))
     };
 
     let on_files = use_callback(loader.clone(), |files, loader| loader.load_files(files));
@@ -152,6 +160,11 @@ pub fn app() -> Html {
             </div>
             if let (Some(a), Some(report)) = (board.active.as_ref(), board.node_report.clone()) {
                 <section class="where" aria-label="Where it fails">
+                    if let Some(fates) = board.node_fates.clone() {
+                        <Icicle taxonomy={Shared(a.taxonomy.clone())} fates={Shared(fates)}
+                            focus={icicle_focus.filter(|&v| (v as usize) <= a.taxonomy.len()).unwrap_or(a.taxonomy.root())}
+                            selected={*selected} on_focus={on_icicle_focus.clone()} on_select={on_select.clone()} />
+                    }
                     <NodeTable taxonomy={Shared(a.taxonomy.clone())} report={Shared(report)}
                         selected={*selected} on_select={on_select.clone()} on_action={on_action.clone()}
                         taxonomy_file={a.names.get(&Slot::Taxonomy).cloned().unwrap_or_else(|| "taxonomy".into())} />
