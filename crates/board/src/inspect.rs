@@ -50,7 +50,12 @@ fn shown_node(tax: &Taxonomy, v: Option<u32>) -> String {
     }
 }
 
-/// Up to `count` rows from row `start` on that pass `filter`, under `settings`.
+/// Rows one page scans at most: a filter that few rows pass still answers at once, and the
+/// next page goes on from where the scan stopped.
+pub const SCAN_LIMIT: usize = 100_000;
+
+/// Up to `count` rows from row `start` on that pass `filter`, under `settings`, reading at
+/// most [`SCAN_LIMIT`] rows.
 pub fn list_rows(
     tax: &Taxonomy,
     batch: &Batch,
@@ -62,7 +67,8 @@ pub fn list_rows(
     let thresholds = settings.thresholds.resolve(tax);
     let mut rows = Vec::new();
     let mut r = start;
-    while r < batch.len() && rows.len() < count {
+    let end = batch.len().min(start.saturating_add(SCAN_LIMIT));
+    while r < end && rows.len() < count {
         let g = batch.label(r);
         let label_ok = filter.label_under.is_none_or(|v| {
             g != NONE

@@ -10,6 +10,7 @@ pub mod file_picker;
 pub mod files_panel;
 pub mod headline;
 pub mod icicle;
+pub mod inspector;
 pub mod metric;
 pub mod node_overrides;
 pub mod node_table;

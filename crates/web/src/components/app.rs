@@ -15,6 +15,7 @@ use super::file_picker::FilePicker;
 use super::files_panel::FilesPanel;
 use super::headline::Headline;
 use super::icicle::Icicle;
+use super::inspector::Inspector;
 use super::node_table::{NodeTable, Shared};
 use super::read_progress::ReadProgress;
 use crate::browser;
@@ -168,6 +169,8 @@ pub fn app() -> Html {
                     <NodeTable taxonomy={Shared(a.taxonomy.clone())} report={Shared(report)}
                         selected={*selected} on_select={on_select.clone()} on_action={on_action.clone()}
                         taxonomy_file={a.names.get(&Slot::Taxonomy).cloned().unwrap_or_else(|| "taxonomy".into())} />
+                    <Inspector taxonomy={Shared(a.taxonomy.clone())} batch={Shared(a.batch.clone())}
+                        settings={board.settings.clone()} selected={*selected} />
                 </section>
             }
             <FilesPanel notes={board.notes.clone()} errors={board.errors.clone()} set_aside={board.set_aside.clone()}
