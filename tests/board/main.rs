@@ -4,6 +4,7 @@
 //! aside, errors beside their file with the batch kept, every control re-scoring through the
 //! engine, profiles and stored settings, `.npz` bundles.
 
+mod nodes;
 mod overrides;
 mod shell;
 

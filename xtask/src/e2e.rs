@@ -15,6 +15,7 @@
 mod big;
 mod harness;
 mod journey;
+mod nodes;
 mod page;
 mod privacy;
 
@@ -92,6 +93,7 @@ impl Test {
 fn all_tests() -> Vec<Test> {
     let mut tests = page::tests();
     tests.extend(journey::tests());
+    tests.extend(nodes::tests());
     tests.extend(privacy::tests());
     tests.extend(big::tests());
     tests

@@ -1,9 +1,11 @@
-//! The page's two charts as plotters drawing functions generic over the backend: the page draws
+//! The page's charts as plotters drawing functions generic over the backend: the page draws
 //! them on a `plotters_canvas::CanvasBackend`, native tests on an SVG backend.
 //!
 //! * [`draw_tradeoff`] — precision against specificity ([`TradeoffView`]);
 //! * [`draw_stops`] — share of predictions stopping at each depth, stacked by outcome
-//!   ([`StopView`]).
+//!   ([`StopView`]);
+//! * [`draw_icicle`] — the taxonomy view, each node a cell sized by its labelled rows and
+//!   filled by what happens to them ([`IcicleView`]).
 //!
 //! Both fill the whole area they are given (background included) and scale every size from
 //! `area.dim_in_pixel()`, so a canvas drawn at devicePixelRatio scale gets proportionally
@@ -16,11 +18,13 @@
 //! The caller calls `present()`.
 
 mod common;
+pub mod icicle;
 mod stops;
 mod tradeoff;
 
 use plotters::style::RGBColor;
 
+pub use icicle::{draw_icicle, icicle_view, IcicleCell, IcicleView};
 pub use stops::draw_stops;
 pub use tradeoff::draw_tradeoff;
 

@@ -107,6 +107,28 @@ impl Board {
         });
     }
 
+    /// Set (or with `None` clear) node `id`'s own threshold, kept by id like a profile's.
+    pub(crate) fn set_node(&mut self, id: &str, value: Option<f64>) {
+        let Some(tax) = self.controls_taxonomy() else {
+            return;
+        };
+        let Some(v) = tax.lookup(id) else {
+            return;
+        };
+        if value.is_some_and(|t| !(0.0..=1.0).contains(&t)) {
+            return;
+        }
+        self.place_nodes();
+        let nodes = &mut self.settings.thresholds.nodes;
+        nodes.retain(|&(c, _)| c != v);
+        if let Some(t) = value {
+            nodes.push((v, t));
+            nodes.sort_by_key(|&(c, _)| c);
+        }
+        self.adopt_nodes(&tax);
+        self.rescore();
+    }
+
     /// Put the overrides on the taxonomy the controls belong to, when they are not on it yet
     /// (stored settings, or a new batch): the ids it has, in its columns; the others go.
     pub(crate) fn place_nodes(&mut self) {

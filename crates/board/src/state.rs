@@ -75,6 +75,11 @@ pub struct Board {
     pub metrics: Option<Metrics>,
     pub curve: Rc<Vec<CurvePoint>>,
     pub sweep: Rc<Vec<TradePoint>>,
+    /// Where it fails, node by node, under the settings in use (kept in step with the rows
+    /// that flip: `crate::nodes::NodeTracker`).
+    pub node_report: Option<Rc<hedgerow_core::NodeReport>>,
+    /// Per node, what happens to the rows labelled under it (the taxonomy view's colours).
+    pub node_fates: Option<Rc<Vec<crate::nodes::Fate>>>,
     caches: Caches,
     /// Bumped whenever a new batch becomes active (for caches keyed on it).
     pub generation: usize,
@@ -245,6 +250,7 @@ impl Board {
                 self.fit_depths();
                 self.rescore();
             }
+            Action::SetNodeThreshold { id, value } => self.set_node(&id, value),
             Action::Reset => {
                 self.settings.thresholds.nodes.clear();
                 self.apply(Action::Restore(Stored::default()));

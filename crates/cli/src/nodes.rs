@@ -95,62 +95,11 @@ pub fn json(loaded: &Loaded) -> anyhow::Result<String> {
     Ok(serde_json::to_string_pretty(&build(loaded))? + "\n")
 }
 
-fn cell(v: Option<f64>) -> String {
-    v.map_or_else(String::new, |v| v.to_string())
-}
-
-/// One CSV row per node in file order, the root (empty id, depth 0) first.
+/// One CSV row per node in file order, the root (empty id, depth 0) first (the core's
+/// writer, which the page's download uses too).
 pub fn csv(loaded: &Loaded) -> anyhow::Result<Vec<u8>> {
-    let report = build(loaded);
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let mut header: Vec<String> = [
-        "id",
-        "name",
-        "depth",
-        "threshold",
-        "overridden",
-        "stops",
-        "correct",
-        "unverifiable",
-        "wrong",
-        "labelled",
-        "stopped_above",
-        "precision",
-        "precision_low",
-        "precision_high",
-    ]
-    .map(String::from)
-    .to_vec();
-    for i in 1..=hedgerow_core::nodes::TOP_WRONG {
-        header.extend([format!("wrong_{i}"), format!("wrong_{i}_count")]);
-    }
-    w.write_record(&header)?;
-    for r in std::iter::once(&report.root).chain(&report.nodes) {
-        let mut rec = vec![
-            r.id.to_string(),
-            r.name.to_string(),
-            r.depth.to_string(),
-            r.threshold.to_string(),
-            r.overridden.to_string(),
-            r.stops.to_string(),
-            r.correct.to_string(),
-            r.unverifiable.to_string(),
-            r.wrong.to_string(),
-            r.labelled.to_string(),
-            r.stopped_above.to_string(),
-            cell(r.precision),
-            cell(r.precision_low),
-            cell(r.precision_high),
-        ];
-        for i in 0..hedgerow_core::nodes::TOP_WRONG {
-            match r.top_wrong.get(i) {
-                Some(x) => rec.extend([x.node.to_string(), x.count.to_string()]),
-                None => rec.extend([String::new(), String::new()]),
-            }
-        }
-        w.write_record(&rec)?;
-    }
-    w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))
+    let report = node_report(&loaded.taxonomy, &loaded.batch, &loaded.settings);
+    Ok(hedgerow_core::nodes::report_csv(&loaded.taxonomy, &report)?)
 }
 
 /// The readable table: ids indented by depth, precision with its interval, the top wrong

@@ -161,22 +161,35 @@ impl DepthDrag {
 
     /// Move the threshold to `t` and return the metrics there.
     pub fn set(&mut self, tax: &Taxonomy, batch: &Batch, t: f64) -> Metrics {
+        self.set_reporting(tax, batch, t, |_, _, _| {})
+    }
+
+    /// [`set`](Self::set), calling `moved(row, from, to)` for every row whose stop depth
+    /// changes, so a caller can keep per-row or per-node state in step with the rows that flip
+    /// only (the page's per-node counts).
+    pub fn set_reporting(
+        &mut self,
+        tax: &Taxonomy,
+        batch: &Batch,
+        t: f64,
+        mut moved: impl FnMut(usize, usize, usize),
+    ) -> Metrics {
         let target = self.moves.partition_point(|m| m.at < t);
         while self.applied < target {
             let m = self.moves[self.applied];
-            self.sums
-                .row(tax, batch, m.row as usize, m.high as usize, false);
-            self.sums
-                .row(tax, batch, m.row as usize, m.low as usize, true);
+            let (r, high, low) = (m.row as usize, m.high as usize, m.low as usize);
+            self.sums.row(tax, batch, r, high, false);
+            self.sums.row(tax, batch, r, low, true);
+            moved(r, high, low);
             self.applied += 1;
         }
         while self.applied > target {
             self.applied -= 1;
             let m = self.moves[self.applied];
-            self.sums
-                .row(tax, batch, m.row as usize, m.low as usize, false);
-            self.sums
-                .row(tax, batch, m.row as usize, m.high as usize, true);
+            let (r, high, low) = (m.row as usize, m.high as usize, m.low as usize);
+            self.sums.row(tax, batch, r, low, false);
+            self.sums.row(tax, batch, r, high, true);
+            moved(r, low, high);
         }
         if let Some(slot) = self.settings.thresholds.depths.get_mut(self.depth - 1) {
             *slot = t;

@@ -286,6 +286,73 @@ pub fn node_report(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> NodeRe
     node_counts(tax, batch, settings).report(tax, settings, TOP_WRONG)
 }
 
+/// The CSV columns of [`report_csv`]: a node's record, then the `TOP_WRONG` most frequent wrong
+/// answers as (id, count) pairs.
+pub fn csv_header() -> Vec<String> {
+    let mut header: Vec<String> = [
+        "id",
+        "name",
+        "depth",
+        "threshold",
+        "overridden",
+        "stops",
+        "correct",
+        "unverifiable",
+        "wrong",
+        "labelled",
+        "stopped_above",
+        "precision",
+        "precision_low",
+        "precision_high",
+    ]
+    .map(String::from)
+    .to_vec();
+    for i in 1..=TOP_WRONG {
+        header.extend([format!("wrong_{i}"), format!("wrong_{i}_count")]);
+    }
+    header
+}
+
+/// One record as its CSV fields (ids for columns; an absent value is an empty field).
+pub fn csv_fields(tax: &Taxonomy, r: &NodeRecord) -> Vec<String> {
+    let cell = |v: Option<f64>| v.map_or_else(String::new, |v| v.to_string());
+    let mut rec = vec![
+        tax.id(r.node).to_string(),
+        tax.name(r.node).to_string(),
+        r.depth.to_string(),
+        r.threshold.to_string(),
+        r.overridden.to_string(),
+        r.stops.to_string(),
+        r.correct.to_string(),
+        r.unverifiable.to_string(),
+        r.wrong.to_string(),
+        r.labelled.to_string(),
+        r.stopped_above.to_string(),
+        cell(r.precision),
+        cell(r.precision_interval.map(|i| i.low)),
+        cell(r.precision_interval.map(|i| i.high)),
+    ];
+    for i in 0..TOP_WRONG {
+        match r.top_wrong.get(i) {
+            Some(&(v, k)) => rec.extend([tax.id(v).to_string(), k.to_string()]),
+            None => rec.extend([String::new(), String::new()]),
+        }
+    }
+    rec
+}
+
+/// The report as CSV: one row per node in file order, the root (empty id, depth 0) first.
+/// `hedgerow nodes --out nodes.csv` and the page's download both write it, byte for byte.
+pub fn report_csv(tax: &Taxonomy, report: &NodeReport) -> Result<Vec<u8>, csv::Error> {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    w.write_record(csv_header())?;
+    for r in std::iter::once(&report.root).chain(&report.nodes) {
+        w.write_record(csv_fields(tax, r))?;
+    }
+    w.into_inner()
+        .map_err(|e| csv::Error::from(e.into_error()))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -29,6 +29,12 @@ pub(super) struct Sizes {
 impl Sizes {
     pub fn of<B: DrawingBackend>(area: &DrawingArea<B, Shift>) -> Self {
         let (w, h) = area.dim_in_pixel();
+        Self::of_dims(w, h)
+    }
+
+    /// The sizes for an area of `w` × `h` pixels (for geometry the page needs without a
+    /// backend, such as where a click lands).
+    pub fn of_dims(w: u32, h: u32) -> Self {
         let font = (f64::from(h) / 22.0).min(f64::from(w) / 34.0).max(7.0);
         let small = font * 0.86;
         Self {

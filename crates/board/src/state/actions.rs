@@ -164,6 +164,12 @@ pub enum Action {
         depth: usize,
         value: f64,
     },
+    /// Node `id`'s own threshold (it replaces its depth's for stepping into it); `None`
+    /// clears it. A value outside [0, 1] or an id the taxonomy lacks changes nothing.
+    SetNodeThreshold {
+        id: String,
+        value: Option<f64>,
+    },
     /// The depth whose control the user is on: chart 1 shows its sweep.
     Focus(usize),
     Restore(Stored),

@@ -6,6 +6,8 @@ use std::rc::Rc;
 
 use hedgerow_core::{CurveIndex, CurvePoint, DepthDrag, Policy, Rule};
 
+use crate::nodes::NodeTracker;
+
 use super::Board;
 use crate::charts::{StopView, TradePoint, TradeoffView};
 
@@ -40,6 +42,9 @@ pub struct Caches {
     /// The focused depth's drag index: shared by the clones of one board (replacing or moving
     /// it changes no field an older board shows).
     drag: Rc<std::cell::RefCell<Option<DepthDrag>>>,
+    /// Every row's stop and the per-node counts, for the batch of this generation; shared like
+    /// `drag` and moved in step with it.
+    nodes: Rc<std::cell::RefCell<Option<(usize, NodeTracker)>>>,
 }
 
 impl Board {
@@ -47,6 +52,8 @@ impl Board {
     pub(crate) fn rescore(&mut self) {
         let Some(a) = self.active.clone() else {
             self.metrics = None;
+            self.node_report = None;
+            self.node_fates = None;
             return;
         };
         if self.settings.thresholds.validate().is_err() {
@@ -113,26 +120,64 @@ impl Board {
             thresholds: others,
         };
         let t = self.settings.thresholds.at_depth(depth);
-        let mut drag = self.caches.drag.borrow_mut();
-        match drag.as_mut() {
-            // Only the focused depth moved: re-score just the rows that flip.
-            Some(d) if self.caches.sweep_key.as_ref() == Some(&key) && d.depth() == depth => {
-                self.metrics = Some(d.set(&a.taxonomy, &a.batch, t));
+        let (drag_cell, nodes_cell) = (self.caches.drag.clone(), self.caches.nodes.clone());
+        let mut drag = drag_cell.borrow_mut();
+        let mut nodes = nodes_cell.borrow_mut();
+        let tracker = match nodes.take() {
+            Some((g, tracker)) if g == self.generation => Some(tracker),
+            _ => None,
+        };
+        match (drag.as_mut(), tracker) {
+            // Only the focused depth moved: re-score just the rows that flip, and move them in
+            // the per-node counts.
+            (Some(d), Some(mut tracker))
+                if self.caches.sweep_key.as_ref() == Some(&key) && d.depth() == depth =>
+            {
+                let (tax, batch) = (&a.taxonomy, &a.batch);
+                self.metrics = Some(d.set_reporting(tax, batch, t, |r, from, to| {
+                    tracker.moved(tax, batch, r, from, to)
+                }));
+                *nodes = Some((self.generation, tracker));
             }
-            _ => {
-                // Exact: one breakpoint per row that reaches the depth (not a sampled grid).
-                let mut d = DepthDrag::new(&a.taxonomy, &a.batch, &self.settings, depth);
-                let points = d
-                    .sweep_within(&a.taxonomy, &a.batch, CURVE_RESOLUTION)
-                    .iter()
-                    .filter_map(trade_point)
-                    .collect();
-                self.sweep = Rc::new(points);
-                self.caches.sweep_key = Some(key);
-                self.metrics = Some(d.set(&a.taxonomy, &a.batch, t));
-                *drag = Some(d);
+            (_, tracker) => {
+                // Anything else moved (another depth, a node, the rule): find the rows whose
+                // stop changed in one pass over the paths; a new batch counts from scratch.
+                let tracker = match tracker {
+                    Some(mut tracker) => {
+                        tracker.resync(&a.taxonomy, &a.batch, &self.settings);
+                        tracker
+                    }
+                    None => NodeTracker::new(&a.taxonomy, &a.batch, &self.settings),
+                };
+                *nodes = Some((self.generation, tracker));
+                self.full_rescore(&a, &mut drag, key, depth, t);
             }
         }
+        if let Some((_, tracker)) = nodes.as_ref() {
+            self.node_report = Some(Rc::new(tracker.report(&a.taxonomy, &self.settings)));
+            self.node_fates = Some(Rc::new(tracker.fates(&a.taxonomy)));
+        }
+    }
+
+    fn full_rescore(
+        &mut self,
+        a: &super::Active,
+        drag: &mut Option<DepthDrag>,
+        key: SweepKey,
+        depth: usize,
+        t: f64,
+    ) {
+        // Exact: one breakpoint per row that reaches the depth (not a sampled grid).
+        let mut d = DepthDrag::new(&a.taxonomy, &a.batch, &self.settings, depth);
+        let points = d
+            .sweep_within(&a.taxonomy, &a.batch, CURVE_RESOLUTION)
+            .iter()
+            .filter_map(trade_point)
+            .collect();
+        self.sweep = Rc::new(points);
+        self.caches.sweep_key = Some(key);
+        self.metrics = Some(d.set(&a.taxonomy, &a.batch, t));
+        *drag = Some(d);
     }
 
     /// Chart 1's data.

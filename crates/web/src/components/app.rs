@@ -14,6 +14,9 @@ use super::error_area::ErrorArea;
 use super::file_picker::FilePicker;
 use super::files_panel::FilesPanel;
 use super::headline::Headline;
+use super::icicle::Icicle;
+use super::inspector::Inspector;
+use super::node_table::{NodeTable, Shared};
 use super::read_progress::ReadProgress;
 use crate::browser;
 use crate::hooks::use_file_drop::use_file_drop;
@@ -48,6 +51,20 @@ pub fn app() -> Html {
             }
         });
     }
+
+    // The node selected in the table or the taxonomy view (a column; the root at `len()`).
+    let selected = use_state(|| None::<u32>);
+    let on_select = {
+        let selected = selected.clone();
+        Callback::from(move |v: u32| selected.set(Some(v)))
+    };
+
+    // The taxonomy view's focused subtree (`None`: the whole tree).
+    let icicle_focus = use_state(|| None::<u32>);
+    let on_icicle_focus = {
+        let icicle_focus = icicle_focus.clone();
+        Callback::from(move |v: u32| icicle_focus.set(Some(v)))
+    };
 
     let on_files = use_callback(loader.clone(), |files, loader| loader.load_files(files));
     let dragging = use_file_drop(on_files.clone());
@@ -142,6 +159,20 @@ pub fn app() -> Html {
                     </section>
                 </div>
             </div>
+            if let (Some(a), Some(report)) = (board.active.as_ref(), board.node_report.clone()) {
+                <section class="where" aria-label="Where it fails">
+                    if let Some(fates) = board.node_fates.clone() {
+                        <Icicle taxonomy={Shared(a.taxonomy.clone())} fates={Shared(fates)}
+                            focus={icicle_focus.filter(|&v| (v as usize) <= a.taxonomy.len()).unwrap_or(a.taxonomy.root())}
+                            selected={*selected} on_focus={on_icicle_focus.clone()} on_select={on_select.clone()} />
+                    }
+                    <NodeTable taxonomy={Shared(a.taxonomy.clone())} report={Shared(report)}
+                        selected={*selected} on_select={on_select.clone()} on_action={on_action.clone()}
+                        taxonomy_file={a.names.get(&Slot::Taxonomy).cloned().unwrap_or_else(|| "taxonomy".into())} />
+                    <Inspector taxonomy={Shared(a.taxonomy.clone())} batch={Shared(a.batch.clone())}
+                        settings={board.settings.clone()} selected={*selected} />
+                </section>
+            }
             <FilesPanel notes={board.notes.clone()} errors={board.errors.clone()} set_aside={board.set_aside.clone()}
                 filled={filled} active={active_names} staging={board.staging_line()}
                 last_read_ms={loader.last_read_ms()} on_remove={on_remove} />
