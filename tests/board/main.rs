@@ -4,6 +4,9 @@
 //! aside, errors beside their file with the batch kept, every control re-scoring through the
 //! engine, profiles and stored settings, `.npz` bundles.
 
+mod bad_input;
+#[path = "../common/catalogue.rs"]
+mod catalogue;
 mod nodes;
 mod overrides;
 mod shell;
@@ -401,8 +404,9 @@ fn profiles_round_trip_and_refuse_another_taxonomy() {
     assert_eq!(fresh.metrics, b.metrics);
     let other = br#"{"kind":"hedgerow threshold profile","version":1,"rule":"cumulative","object_threshold":0.5,"thresholds":[0.5],"temperatures":[],"unverifiable":"credit","taxonomy":{"fingerprint":"ffff0000ffff","nodes":12,"depth":3}}"#;
     shell.give(&mut fresh, &[("other.json", other)]);
-    assert!(fresh.errors[&Slot::Profile][0]
-        .starts_with("other.json: this profile was made for another taxonomy"));
+    assert!(fresh.errors[&Slot::Profile][0].starts_with(
+        "other.json, key `taxonomy.fingerprint`: this profile was made for another taxonomy"
+    ));
     assert_eq!(fresh.settings, b.settings, "settings kept");
 }
 

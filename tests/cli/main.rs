@@ -2,6 +2,8 @@
 //! (evaluate, decode, curve, nodes, profile) agree with each other; decode streams in bounded memory.
 
 mod bad_input;
+#[path = "../common/catalogue.rs"]
+mod catalogue;
 mod decode;
 mod happy;
 mod harness;

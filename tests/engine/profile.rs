@@ -39,8 +39,9 @@ fn profile_for_another_taxonomy_is_refused() {
     let text = Profile::new(&other, &s, &Temperatures::default(), None).to_json();
     let e = Profile::from_json(text.as_bytes(), "p.json", &tax).expect_err("refused");
     assert!(
-        e.to_string()
-            .starts_with("p.json: this profile was made for another taxonomy"),
+        e.to_string().starts_with(
+            "p.json, key `taxonomy.fingerprint`: this profile was made for another taxonomy"
+        ),
         "{e}"
     );
     // Renaming a display name keeps the fingerprint; re-parenting changes it.

@@ -146,8 +146,8 @@ pub async fn select<S: Source>(files: Vec<S>, origin: Origin) -> Selection<S> {
 }
 
 /// Read a bundle's directory from its tail, locate its `logits` member and read the small
-/// members wanted whole. An error is the whole bundle's (shown beside the logits); a small
-/// member's problem is kept for its slot.
+/// members wanted whole. An error, a small member's too, is the whole bundle's (shown beside
+/// the logits).
 async fn open_bundle<S: Source>(
     file: &S,
     given: &[Kind],
@@ -199,25 +199,27 @@ async fn open_bundle<S: Source>(
         };
         match bytes {
             Ok(b) => members.push((Slot::of(kind), Rc::new(b))),
-            Err(message) => problems.push(Action::Unreadable {
-                slot: Some(Slot::of(kind)),
-                message,
-            }),
+            Err(message) => problems.push(message),
         }
+    }
+    // A damaged member refuses the whole bundle, as the command line does: staging only its
+    // good parts would pair them with whatever the other slots hold, and the member's message
+    // would go when that batch is assembled.
+    if !problems.is_empty() {
+        return Err(problems.join("; "));
     }
     let plan = LogitsPlan {
         source: file.clone(),
         range,
         member: Some((bundle.clone(), logits)),
     };
-    let mut actions = vec![Action::BundleChosen {
+    let actions = vec![Action::BundleChosen {
         name,
         total: plan.total(),
         keys: bundle.keys(),
         members,
         origin,
     }];
-    actions.extend(problems);
     Ok((plan, actions))
 }
 

@@ -278,7 +278,12 @@ impl Objectness {
                         file,
                         Location::row(r as u64),
                         ErrorKind::NotProbability {
-                            found: v.to_string(),
+                            // As the file holds it: 1.2 in float32, not its f64 widening.
+                            found: if h.dtype.scalar == crate::npy::Scalar::F64 {
+                                v.to_string()
+                            } else {
+                                v32.to_string()
+                            },
                         },
                     ));
                 }

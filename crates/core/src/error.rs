@@ -3,9 +3,11 @@
 use std::fmt;
 
 /// Where in a file a problem sits. Text files count `line`s from 1 (header included, as an
-/// editor shows them); arrays count `row`s from 0 (as numpy indexes them).
+/// editor shows them); arrays count `row`s from 0 (as numpy indexes them); a JSON value checked
+/// after parsing is named by its `key` path (`thresholds[1]`, `node_thresholds."glass"`).
 #[derive(Debug, Clone, Default, PartialEq, Eq)]
 pub struct Location {
+    pub key: Option<String>,
     pub line: Option<u64>,
     pub row: Option<u64>,
     pub column: Option<String>,
@@ -38,6 +40,12 @@ impl Location {
             ..Self::default()
         }
     }
+    pub fn key(key: impl Into<String>) -> Self {
+        Location {
+            key: Some(key.into()),
+            ..Self::default()
+        }
+    }
     pub fn column(mut self, column: impl Into<String>) -> Self {
         self.column = Some(column.into());
         self
@@ -46,6 +54,9 @@ impl Location {
 
 impl fmt::Display for Location {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        if let Some(key) = &self.key {
+            write!(f, ", key `{key}`")?;
+        }
         if let Some(line) = self.line {
             write!(f, ", line {line}")?;
         }

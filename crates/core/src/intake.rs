@@ -157,6 +157,13 @@ pub fn recognise(name: &str, head: &[u8]) -> Result<Recognised, Error> {
             header: Some(header),
         });
     }
+    // A name that says `.npy` over bytes that are not one: the `.npy` reader's own message
+    // (the command line gives the same), rather than "not recognised".
+    if name.to_ascii_lowercase().ends_with(".npy") {
+        if let Err(k) = npy::check_magic(head) {
+            return Err(Error::new(name, Location::byte(0), k));
+        }
+    }
     if name.to_ascii_lowercase().ends_with(".npz") {
         let first: String = head.iter().take(4).map(|b| format!("\\x{b:02x}")).collect();
         return Err(Error::new(
@@ -203,8 +210,14 @@ pub fn recognise(name: &str, head: &[u8]) -> Result<Recognised, Error> {
 /// bytes show it is another kind of file (`labels.csv` given as the taxonomy). A file that is
 /// not recognised at all is left to the parser of `expected`, whose message is more precise.
 pub fn given_as(name: &str, head: &[u8], expected: Kind) -> Result<Option<Recognised>, Error> {
-    let Ok(r) = recognise(name, head) else {
-        return Ok(None);
+    let r = match recognise(name, head) {
+        Ok(r) => r,
+        // A file named `.npz` that is no zip archive: the bundle's message, as the page gives
+        // it, rather than the `.npy` parser's.
+        Err(e) if expected == Kind::Logits && name.to_ascii_lowercase().ends_with(".npz") => {
+            return Err(e)
+        }
+        Err(_) => return Ok(None),
     };
     if r.kind == expected {
         return Ok(Some(r));

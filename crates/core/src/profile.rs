@@ -121,9 +121,9 @@ impl Profile {
         if kind != KIND {
             return Err(Error::new(
                 file,
-                Location::default(),
+                Location::key("kind"),
                 ErrorKind::Invalid {
-                    what: "`kind`".into(),
+                    what: "not a threshold profile".into(),
                     expected: format!("\"{KIND}\""),
                     found: kind.to_string(),
                 },
@@ -134,21 +134,23 @@ impl Profile {
         if version != VERSION as u64 {
             return Err(Error::new(
                 file,
-                Location::default(),
+                Location::key("version"),
                 ErrorKind::Invalid {
-                    what: "`version`".into(),
+                    what: "profile version".into(),
                     expected: VERSION.to_string(),
                     found: version.to_string(),
                 },
             )
             .into());
         }
-        let profile: Profile = serde_json::from_value(value)
-            .map_err(|e| Error::new(file, Location::default(), ErrorKind::Json(e.to_string())))?;
+        // Typed from the bytes again (not from `value`), so a missing field or a wrong type
+        // is located by line and column too.
+        let profile: Profile = serde_json::from_slice(bytes)
+            .map_err(|e| Error::new(file, at(&e), ErrorKind::Json(e.to_string())))?;
         if profile.taxonomy.fingerprint != tax.fingerprint() {
             return Err(Error::new(
                 file,
-                Location::default(),
+                Location::key("taxonomy.fingerprint"),
                 ErrorKind::ProfileTaxonomy {
                     expected: short(tax.fingerprint()),
                     expected_nodes: tax.len(),
@@ -158,13 +160,97 @@ impl Profile {
             )
             .into());
         }
-        profile
-            .settings(tax)
-            .map_err(|k| Error::new(file, Location::default(), k))?;
-        Temperatures(profile.temperatures.clone())
-            .validate()
-            .map_err(|k| Error::new(file, Location::default(), k))?;
+        profile.check_values(file, tax)?;
         Ok(profile)
+    }
+
+    /// Every threshold in [0, 1], every node id in the taxonomy, every temperature valid: each
+    /// problem named by its key in the file.
+    fn check_values(&self, file: &str, tax: &Taxonomy) -> Result<()> {
+        let mut errors = Vec::new();
+        let mut range = |key: String, what: String, t: f64| {
+            if !(0.0..=1.0).contains(&t) {
+                errors.push(Error::new(
+                    file,
+                    Location::key(key),
+                    ErrorKind::ThresholdRange {
+                        what,
+                        found: t.to_string(),
+                    },
+                ));
+            }
+        };
+        range(
+            "object_threshold".into(),
+            "object threshold".into(),
+            self.object_threshold,
+        );
+        for (i, &t) in self.thresholds.iter().enumerate() {
+            range(
+                format!("thresholds[{i}]"),
+                format!("threshold for depth {}", i + 1),
+                t,
+            );
+        }
+        for (id, &t) in &self.node_thresholds {
+            range(
+                format!("node_thresholds.\"{id}\""),
+                format!("threshold for node {id}"),
+                t,
+            );
+        }
+        if self.thresholds.is_empty() {
+            errors.push(Error::new(
+                file,
+                Location::key("thresholds"),
+                ErrorKind::Invalid {
+                    what: "thresholds".into(),
+                    expected: "at least one value".into(),
+                    found: "none".into(),
+                },
+            ));
+        }
+        for id in self.node_thresholds.keys() {
+            if tax.lookup(id).is_none() {
+                errors.push(Error::new(
+                    file,
+                    Location::key(format!("node_thresholds.\"{id}\"")),
+                    ErrorKind::Invalid {
+                        what: "node id".into(),
+                        expected: "an id of the taxonomy".into(),
+                        found: id.clone(),
+                    },
+                ));
+            }
+        }
+        for (i, &t) in self.temperatures.iter().enumerate() {
+            if let Err(kind) = Temperatures(vec![t]).validate() {
+                let kind = match kind {
+                    ErrorKind::TemperatureRange {
+                        found, min, max, ..
+                    } => ErrorKind::TemperatureRange {
+                        depth: i + 1,
+                        found,
+                        min,
+                        max,
+                    },
+                    other => other,
+                };
+                errors.push(Error::new(
+                    file,
+                    Location::key(format!("temperatures[{i}]")),
+                    kind,
+                ));
+            }
+        }
+        if errors.is_empty() {
+            // What the checks above cover, `settings` checks again for its other callers.
+            self.settings(tax)
+                .map_err(|k| Error::new(file, Location::default(), k))?;
+            Ok(())
+        } else {
+            Err(crate::error::Errors(errors))
+        }
     }
 
     /// The decode settings this profile holds.
