@@ -2,7 +2,7 @@
 
 /// splitmix64 (Steele, Lea & Flood 2014): the next 64-bit output of a counter-based mixer.
 /// One seed gives one sequence on every platform, so the page and the command line split alike.
-pub(crate) fn splitmix64(state: &mut u64) -> u64 {
+pub fn splitmix64(state: &mut u64) -> u64 {
     *state = state.wrapping_add(0x9E37_79B9_7F4A_7C15);
     let mut z = *state;
     z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
