@@ -11,5 +11,6 @@ mod limits;
 mod nodes;
 mod readme;
 mod stream;
+mod suggest;
 #[path = "../common/zip.rs"]
 mod zip;

@@ -3,6 +3,7 @@
 mod curve;
 mod fuzz;
 mod harness;
+mod intervals;
 mod invariants;
 mod limits;
 mod nodes;
@@ -12,6 +13,7 @@ mod profile;
 mod properties;
 mod robustness;
 mod rules;
+mod suggest;
 mod worked;
 #[path = "../common/zip.rs"]
 mod zip;

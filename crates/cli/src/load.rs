@@ -15,6 +15,8 @@ use crate::{Input, SettingArgs};
 /// Why a command failed: bad input (exit 2, one message per problem) or anything else.
 pub enum Failure {
     Input(Vec<String>),
+    /// `suggest` could not guarantee the target (exit 3).
+    Unmet(String),
     Other(anyhow::Error),
 }
 
@@ -57,6 +59,16 @@ fn numbers(flag: &str, text: &str) -> Result<Vec<f64>, String> {
 
 impl Loaded {
     pub fn load(input: &Input, args: &SettingArgs) -> Result<Self, Failure> {
+        Self::load_grouped(input, args, None).map(|(loaded, _)| loaded)
+    }
+
+    /// [`load`](Self::load), and with `group_column` the group of each row read from that
+    /// column of the labels CSV (dense indices in order of first appearance).
+    pub fn load_grouped(
+        input: &Input,
+        args: &SettingArgs,
+        group_column: Option<&str>,
+    ) -> Result<(Self, Option<Vec<u32>>), Failure> {
         let taxonomy = taxonomy(&input.taxonomy)?;
         let Chosen {
             settings,
@@ -74,6 +86,13 @@ impl Loaded {
                 Labels::parse(&small.bytes, &small.name, &taxonomy),
             ),
             None => return Err(Failure::Input(vec![sources.no_labels()])),
+        };
+        let groups = match (group_column, &sources.labels) {
+            (Some(column), Some(small)) => keep(
+                &mut problems,
+                hedgerow_core::suggest::groups::parse(&small.bytes, &small.name, column),
+            ),
+            _ => None,
         };
         let objectness = sources
             .objectness
@@ -110,11 +129,27 @@ impl Loaded {
             labels,
             objectness,
         )?;
-        Ok(Loaded {
-            taxonomy,
-            batch,
-            settings,
-        })
+        if let Some(g) = &groups {
+            if g.len() != batch.len() {
+                let name = sources
+                    .labels
+                    .as_ref()
+                    .map_or("labels", |s| s.name.as_str());
+                return Err(Failure::Input(vec![format!(
+                    "{name}: {} rows with a group, but the batch has {} rows",
+                    g.len(),
+                    batch.len()
+                )]));
+            }
+        }
+        Ok((
+            Loaded {
+                taxonomy,
+                batch,
+                settings,
+            },
+            groups,
+        ))
     }
 }
 

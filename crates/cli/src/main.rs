@@ -1,10 +1,11 @@
-//! `hedgerow`: the command line over hedgerow-core: evaluate, decode, curve, nodes and profile.
+//! `hedgerow`: the command line over hedgerow-core: evaluate, decode, curve, nodes, suggest and profile.
 
 mod bench;
 mod decode;
 mod load;
 mod nodes;
 mod report;
+mod suggest;
 
 use std::io::Write;
 use std::path::PathBuf;
@@ -107,6 +108,46 @@ enum Command {
         #[arg(long, default_value_t = 50)]
         repeat: usize,
     },
+    /// Suggest per-depth thresholds whose precision on new rows is at least --min-precision
+    /// with probability --confidence (Pareto Testing, Learn-then-Test), and write them as a
+    /// profile.
+    ///
+    /// The rule, policy, object threshold and --node-threshold overrides (or a profile's) are
+    /// kept; the depth thresholds are chosen (--thresholds is not used). Prints the suggestion
+    /// beside (a) one shared threshold certified the same way and (b) the in-sample optimum
+    /// without a guarantee, with held-out results. Exit code 3 when the target cannot be
+    /// guaranteed (no profile is written); 2 for bad input.
+    Suggest {
+        #[command(flatten)]
+        input: Input,
+        #[command(flatten)]
+        settings: SettingArgs,
+        /// The precision to guarantee, in (0, 1).
+        #[arg(long)]
+        min_precision: f64,
+        /// Probability over the draw of the tuning rows that the guarantee holds, in (0, 1).
+        #[arg(long, default_value_t = 0.9)]
+        confidence: f64,
+        /// What to make as large as the target allows: specificity or reward.
+        #[arg(long, default_value = "specificity")]
+        maximize: String,
+        /// Share of rows (or groups) kept out of tuning and scored at the end, in [0, 1).
+        #[arg(long, default_value_t = 0.0)]
+        holdout: f64,
+        /// Column of the labels CSV naming each row's group (an image, say): groups are kept
+        /// whole when rows are split.
+        #[arg(long)]
+        group_column: Option<String>,
+        /// Seed of the split.
+        #[arg(long, default_value_t = 0)]
+        seed: u64,
+        /// Where to write the profile.
+        #[arg(long)]
+        out: PathBuf,
+        /// Print JSON instead of the table.
+        #[arg(long)]
+        json: bool,
+    },
     /// Write a threshold profile from the given settings, scored on the batch.
     Profile {
         #[command(flatten)]
@@ -178,6 +219,10 @@ fn main() -> ExitCode {
             }
             ExitCode::from(2)
         }
+        Err(Failure::Unmet(message)) => {
+            eprintln!("error: {message}");
+            ExitCode::from(suggest::UNMET)
+        }
         Err(Failure::Other(e)) => {
             eprintln!("error: {e:#}");
             ExitCode::from(1)
@@ -246,6 +291,29 @@ fn run(cli: Cli) -> Result<(), Failure> {
             let text = bench::run(&input, &settings, repeat)?;
             write_out(None, text.as_bytes())
         }
+        Command::Suggest {
+            input,
+            settings,
+            min_precision,
+            confidence,
+            maximize,
+            holdout,
+            group_column,
+            seed,
+            out,
+            json,
+        } => suggest::run(&suggest::Args {
+            input: &input,
+            settings: &settings,
+            min_precision,
+            confidence,
+            maximize: &maximize,
+            holdout,
+            group_column: group_column.as_deref(),
+            seed,
+            out: &out,
+            json,
+        }),
         Command::Profile {
             input,
             settings,

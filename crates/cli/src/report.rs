@@ -62,7 +62,18 @@ pub fn table(loaded: &Loaded, m: &Metrics) -> String {
             format!("{} ({} false alarms)", m.wrong, m.false_alarms),
         ),
         ("abstained", m.abstained.to_string()),
-        ("precision", show(m.precision)),
+        (
+            "precision",
+            match m.precision_interval {
+                Some(i) => format!(
+                    "{}  (Wilson 95 %: {:.4}–{:.4})",
+                    show(m.precision),
+                    i.low,
+                    i.high
+                ),
+                None => show(m.precision),
+            },
+        ),
         ("specificity", show(m.specificity)),
         ("reward", show(m.reward)),
         ("hier. precision", show(m.hierarchical_precision)),

@@ -428,6 +428,35 @@ impl Batch {
         }
     }
 
+    /// The rows `rows` (indices into this batch, each < `len()`) as a batch of their own, in
+    /// the order given: how the threshold suggestion splits tuning rows into parts. Its
+    /// fingerprint is derived from this batch's and the rows taken.
+    pub fn subset(&self, tax: &Taxonomy, rows: &[u32]) -> Batch {
+        let mut paths = Paths::new(self.paths.width());
+        let mut labels = Vec::with_capacity(rows.len());
+        let mut h = blake3::Hasher::new();
+        h.update(b"hedgerow subset v1\0");
+        h.update(self.fingerprint.as_bytes());
+        for &r in rows {
+            let r = r as usize;
+            paths.push(self.paths.leaf(r), self.paths.cond(r));
+            labels.push(self.labels[r]);
+            h.update(&(r as u64).to_le_bytes());
+        }
+        let objectness = self
+            .objectness
+            .as_ref()
+            .map(|o| rows.iter().map(|&r| o[r as usize]).collect());
+        Batch::from_parts(
+            tax,
+            paths,
+            labels,
+            objectness,
+            self.temperatures.clone(),
+            h.finalize().to_hex().to_string(),
+        )
+    }
+
     pub fn len(&self) -> usize {
         self.paths.len()
     }

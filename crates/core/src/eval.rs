@@ -68,6 +68,10 @@ pub struct Metrics {
     /// Background rows that predicted (counted in `wrong`).
     pub false_alarms: u64,
     pub precision: Option<f64>,
+    /// Wilson 95 % interval of precision, n = the predictions the policy counts (`None`
+    /// without any). Profiles saved before the field existed read it as `None`.
+    #[serde(default)]
+    pub precision_interval: Option<crate::stats::Interval>,
     pub specificity: Option<f64>,
     pub reward: Option<f64>,
     /// Index d = 0..=D: share of predictions stopping at depth d.
@@ -376,6 +380,14 @@ pub(crate) fn finish(tax: &Taxonomy, batch: &Batch, settings: &Settings, sums: S
         background_rows: batch.len() as u64 - labelled,
         false_alarms,
         precision: precision(settings.policy, correct, unverifiable, wrong),
+        precision_interval: {
+            let (k, m) = match settings.policy {
+                Policy::Credit => (correct + unverifiable, predictions),
+                Policy::Penalize => (correct, predictions),
+                Policy::Exclude => (correct, correct + wrong),
+            };
+            crate::stats::wilson(k, m, crate::stats::Z95)
+        },
         specificity: ratio(gain_sum, n),
         reward: ratio(reward_sum, n),
         stop_share: stop_count

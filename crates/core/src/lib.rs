@@ -48,6 +48,7 @@ pub mod paths;
 pub mod profile;
 pub mod settings;
 pub mod stats;
+pub mod suggest;
 pub mod taxonomy;
 
 pub use batch::{Batch, Labels, Objectness};
@@ -60,4 +61,5 @@ pub use nodes::{node_counts, node_report, NodeCounts, NodeRecord, NodeReport};
 pub use paths::{Ingested, LogitsReader, Paths};
 pub use profile::Profile;
 pub use settings::{Policy, Rule, Settings, Temperatures, Thresholds};
+pub use suggest::{suggest, Maximize, Report, Request};
 pub use taxonomy::Taxonomy;

@@ -17,6 +17,9 @@
 //!   "scored": { "data_fingerprint": "…", "metrics": { … } }
 //! }
 //! ```
+//! `made_by` (optional) records how `hedgerow suggest` chose the thresholds (target,
+//! confidence, methods, rows per part, the bound reached); older readers ignore it.
+//!
 //! `objectness` says whether the batch it was scored on had objectness (so `object_threshold`
 //! took part in the decode); profiles saved before the field existed, and profiles not scored
 //! on a batch, leave it out.
@@ -70,6 +73,10 @@ pub struct Profile {
     pub taxonomy: TaxonomyStamp,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub scored: Option<Scored>,
+    /// How `hedgerow suggest` made these thresholds; absent in profiles made by hand.
+    /// Readers that predate the field ignore it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub made_by: Option<crate::suggest::Record>,
 }
 
 impl Profile {
@@ -104,6 +111,7 @@ impl Profile {
                 data_fingerprint: b.fingerprint().to_string(),
                 metrics: m.clone(),
             }),
+            made_by: None,
         }
     }
 
