@@ -10,6 +10,7 @@ mod catalogue;
 mod nodes;
 mod overrides;
 mod shell;
+mod suggest;
 
 use std::rc::Rc;
 

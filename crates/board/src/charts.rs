@@ -87,6 +87,9 @@ pub struct TradeoffView {
     pub sweep: Option<(usize, Vec<TradePoint>)>,
     /// "cumulative" or "conditional", for the legend.
     pub rule: String,
+    /// Named settings to mark (the suggestion and its shared-threshold baseline), each with
+    /// its legend text: the first as a triangle, the others as crosses.
+    pub marks: Vec<(String, TradePoint)>,
 }
 
 /// Chart 2: share of predictions stopping at each depth, stacked by outcome.

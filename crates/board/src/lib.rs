@@ -11,4 +11,5 @@ pub mod loading;
 pub mod nodes;
 pub mod overrides;
 pub mod state;
+pub mod suggestion;
 pub mod wording;

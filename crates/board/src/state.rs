@@ -103,6 +103,9 @@ pub struct Board {
     /// The per-node overrides by node id, and the taxonomy they are placed on (see
     /// `crate::overrides`).
     pub(crate) node_ids: Option<crate::overrides::NodeIds>,
+    /// The last suggestion asked for (see `crate::suggestion`), and why the last ask failed.
+    pub suggestion: Option<Rc<crate::suggestion::Suggested>>,
+    pub suggestion_error: Option<String>,
 }
 
 impl Board {
@@ -147,12 +150,18 @@ impl Board {
     pub fn profile(&self) -> Option<Profile> {
         let a = self.active.as_ref()?;
         let m = self.metrics.as_ref()?;
-        Some(Profile::new(
+        let mut profile = Profile::new(
             &a.taxonomy,
             &self.settings,
             a.batch.temperatures(),
             Some((&a.batch, m)),
-        ))
+        );
+        // Saved while the sliders hold a suggestion: record how it was made, as
+        // `hedgerow suggest` does.
+        if self.sliders_hold_suggestion() {
+            profile.made_by = self.current_suggestion().map(|s| s.report.record.clone());
+        }
+        Some(profile)
     }
 
     pub fn apply(&mut self, action: Action) {
@@ -251,6 +260,7 @@ impl Board {
                 self.rescore();
             }
             Action::SetNodeThreshold { id, value } => self.set_node(&id, value),
+            Action::Suggest(ask) => self.suggest(ask),
             Action::Reset => {
                 self.settings.thresholds.nodes.clear();
                 self.apply(Action::Restore(Stored::default()));

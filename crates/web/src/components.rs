@@ -15,5 +15,6 @@ pub mod metric;
 pub mod node_overrides;
 pub mod node_table;
 pub mod read_progress;
+pub mod suggest_panel;
 pub mod temperature_field;
 pub mod threshold_control;

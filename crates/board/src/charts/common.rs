@@ -146,6 +146,8 @@ pub(super) enum Swatch {
     Dashed(RGBColor),
     /// A big round marker.
     Dot(RGBColor),
+    /// A named setting's marker ([`draw_mark`]): the first a triangle, the others crosses.
+    Mark(usize),
     /// A filled square.
     Block(RGBColor),
     /// Nothing (a heading).
@@ -291,6 +293,9 @@ impl Legend {
             Swatch::Dot(c) => {
                 draw_current_marker(area, mid, s, c)?;
             }
+            Swatch::Mark(i) => {
+                draw_mark(area, mid, s, i)?;
+            }
             Swatch::Block(c) => {
                 let half = sw / 2;
                 area.draw(&Rectangle::new(
@@ -326,4 +331,37 @@ pub(super) fn draw_current_marker<B: DrawingBackend>(
     area.draw(&Circle::new(at, r + 1, INK.filled()))?;
     area.draw(&Circle::new(at, r, WHITE.filled()))?;
     area.draw(&Circle::new(at, (r * 3 / 4).max(2), color.filled()))
+}
+
+/// A named setting's marker: the first (the suggestion) an ink triangle on a white ring, the
+/// others (its baselines) crosses in the shared curve's colour, so both read apart from the
+/// round current-settings marker without colour.
+pub(super) fn draw_mark<B: DrawingBackend>(
+    area: &DrawingArea<B, Shift>,
+    at: (i32, i32),
+    s: Sizes,
+    i: usize,
+) -> Result<(), DrawingAreaErrorKind<B::ErrorType>> {
+    let r = marker_big(s) + 1;
+    if i == 0 {
+        let tri = |r: i32| {
+            vec![
+                (at.0, at.1 - r),
+                (at.0 + r * 87 / 100, at.1 + r / 2),
+                (at.0 - r * 87 / 100, at.1 + r / 2),
+            ]
+        };
+        area.draw(&Polygon::new(tri(r + 2), WHITE.filled()))?;
+        area.draw(&Polygon::new(tri(r), INK.filled()))
+    } else {
+        let w = s.stroke.max(2) + 1;
+        area.draw(&PathElement::new(
+            vec![(at.0 - r, at.1 - r), (at.0 + r, at.1 + r)],
+            super::CURVE.stroke_width(w),
+        ))?;
+        area.draw(&PathElement::new(
+            vec![(at.0 - r, at.1 + r), (at.0 + r, at.1 - r)],
+            super::CURVE.stroke_width(w),
+        ))
+    }
 }

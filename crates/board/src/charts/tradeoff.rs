@@ -6,7 +6,7 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, VPos};
 
 use super::common::{
-    densify, draw_current_marker, marker_big, marker_small, measure, px, text, text_at, unit,
+    densify, draw_current_marker, draw_mark, marker_big, marker_small, measure, px, text, text_at, unit,
     Legend, Rect, Sizes, Swatch,
 };
 use super::{
@@ -70,12 +70,18 @@ pub fn draw_tradeoff<B: DrawingBackend>(
         .map(|(d, pts)| (*d, pts.iter().filter_map(clean).collect::<Vec<_>>()))
         .filter(|(_, pts)| !pts.is_empty());
     let current = view.current.as_ref().and_then(clean);
-    let empty = curve.is_empty() && current.is_none() && sweep.is_none();
+    let marks: Vec<(&str, TradePoint)> = view
+        .marks
+        .iter()
+        .filter_map(|(l, p)| Some((l.as_str(), clean(p)?)))
+        .collect();
+    let empty = curve.is_empty() && current.is_none() && sweep.is_none() && marks.is_empty();
 
     let all = curve
         .iter()
         .chain(sweep.iter().flat_map(|(_, p)| p.iter()))
-        .chain(current.iter());
+        .chain(current.iter())
+        .chain(marks.iter().map(|(_, p)| p));
     let (y_lo, y_hi) = precision_range(all.map(|p| p.precision));
 
     let tick_style = text(s.small);
@@ -178,6 +184,13 @@ pub fn draw_tradeoff<B: DrawingBackend>(
         occupied.extend(densify(&sweep_px, s.font * 0.4));
     }
 
+    for (i, (_, p)) in marks.iter().enumerate() {
+        let at = to_px(p);
+        let r = marker_big(s) + 1;
+        draw_mark(area, at, s, i)?;
+        occupied.extend([at, (at.0 - r, at.1 - r), (at.0 + r, at.1 + r)]);
+    }
+
     let mut label_box = None;
     if let Some(p) = &current {
         let at = to_px(p);
@@ -244,6 +257,9 @@ pub fn draw_tradeoff<B: DrawingBackend>(
     }
     if current.is_some() {
         entries.push((Swatch::Dot(CURRENT), CURRENT_LABEL.to_string()));
+    }
+    for (i, (label, _)) in marks.iter().enumerate() {
+        entries.push((Swatch::Mark(i), (*label).to_string()));
     }
     let legend = Legend {
         entries,

@@ -170,6 +170,9 @@ pub enum Action {
         id: String,
         value: Option<f64>,
     },
+    /// Ask for depth thresholds that hold a precision target with a guarantee
+    /// (`crate::suggestion`); the depth sliders move to the suggestion.
+    Suggest(crate::suggestion::Ask),
     /// The depth whose control the user is on: chart 1 shows its sweep.
     Focus(usize),
     Restore(Stored),

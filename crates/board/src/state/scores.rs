@@ -196,6 +196,10 @@ impl Board {
             current,
             sweep,
             rule: self.settings.rule.as_str().to_string(),
+            marks: self
+                .current_suggestion()
+                .map(|s| s.marks.iter().map(|(l, p)| (l.to_string(), *p)).collect())
+                .unwrap_or_default(),
         }
     }
 

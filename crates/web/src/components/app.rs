@@ -18,6 +18,7 @@ use super::icicle::Icicle;
 use super::inspector::Inspector;
 use super::node_table::{NodeTable, Shared};
 use super::read_progress::ReadProgress;
+use super::suggest_panel::SuggestPanel;
 use crate::browser;
 use crate::hooks::use_file_drop::use_file_drop;
 use crate::hooks::use_loader::use_loader;
@@ -159,6 +160,9 @@ pub fn app() -> Html {
                     </section>
                 </div>
             </div>
+            <SuggestPanel suggestion={board.current_suggestion().cloned()}
+                error={board.suggestion_error.clone()} label_columns={board.label_columns()}
+                has_batch={board.active.is_some()} on_action={on_action.clone()} />
             if let (Some(a), Some(report)) = (board.active.as_ref(), board.node_report.clone()) {
                 <section class="where" aria-label="Where it fails">
                     if let Some(fates) = board.node_fates.clone() {
