@@ -18,6 +18,7 @@ mod journey;
 mod nodes;
 mod page;
 mod privacy;
+mod suggest;
 
 use std::future::Future;
 use std::path::PathBuf;
@@ -95,6 +96,7 @@ fn all_tests() -> Vec<Test> {
     tests.extend(journey::tests());
     tests.extend(nodes::tests());
     tests.extend(privacy::tests());
+    tests.extend(suggest::tests());
     tests.extend(big::tests());
     tests
 }

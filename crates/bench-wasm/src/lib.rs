@@ -216,4 +216,56 @@ impl Session {
         })
         .to_string())
     }
+
+    /// Time the page's suggestion (`hedgerow suggest`'s engine, as the page's panel calls it:
+    /// cumulative rule, credit policy, the object threshold given, confidence 0.9, 30 % held
+    /// out, seed 1) for precision `target`, `repeat` times; the fastest is `suggest_ms`.
+    pub fn suggest(
+        &self,
+        target: f64,
+        object_threshold: f64,
+        repeat: usize,
+    ) -> Result<String, JsError> {
+        let batch = self
+            .batch
+            .as_ref()
+            .ok_or_else(|| js_err("no batch: call finish first"))?;
+        let settings = Settings {
+            rule: Rule::Cumulative,
+            thresholds: Thresholds {
+                object: object_threshold,
+                depths: vec![0.5; self.tax.max_depth().max(1)],
+                nodes: Vec::new(),
+            },
+            policy: Policy::Credit,
+        };
+        let request = hedgerow_core::suggest::Request {
+            target,
+            confidence: 0.9,
+            maximize: hedgerow_core::suggest::Maximize::Specificity,
+            holdout: 0.3,
+            seed: 1,
+        };
+        let mut times = Vec::new();
+        let mut report = None;
+        for _ in 0..repeat.max(1) {
+            let t = now_ms();
+            let r = hedgerow_core::suggest::suggest(&self.tax, batch, &settings, None, &request)
+                .map_err(js_err)?;
+            times.push(now_ms() - t);
+            report = Some(r);
+        }
+        let depths = report
+            .as_ref()
+            .and_then(|r| r.suggestion.as_ref())
+            .map(|c| c.thresholds.depths.clone());
+        Ok(serde_json::json!({
+            "suggest_ms": times.iter().copied().fold(f64::INFINITY, f64::min),
+            "suggest_ms_all": times,
+            "suggest_target": target,
+            "suggested_depths": depths,
+            "path_length": report.as_ref().map(|r| r.record.path_length),
+        })
+        .to_string())
+    }
 }

@@ -94,6 +94,10 @@
       out.curve = JSON.parse(session.curve(cfg.objectThreshold, cfg.curveRepeat || 1));
       log("curve " + out.curve.curve_ms.toFixed(0) + " ms, " + out.curve.curve_points + " points");
     }
+    if (cfg.suggest) {
+      out.suggest = JSON.parse(session.suggest(cfg.suggestTarget || 0.9, cfg.objectThreshold, cfg.suggestRepeat || 1));
+      log("suggest " + out.suggest.suggest_ms.toFixed(0) + " ms");
+    }
     session.free();
     return out;
   }

@@ -260,6 +260,7 @@ mod tests {
             current: Some(current),
             sweep: Some((2, sweep)),
             rule: "cumulative".into(),
+            marks: Vec::new(),
         }
     }
 
@@ -336,6 +337,40 @@ mod tests {
         for tick in ["0.0", "0.5", "1.0"] {
             assert!(has_text(&svg, tick), "missing tick {tick}");
         }
+    }
+
+    #[test]
+    fn tradeoff_marks_the_suggestion_and_its_baseline_with_their_names() {
+        let mut view = realistic_tradeoff();
+        let current = view.current.expect("current");
+        view.marks = vec![
+            ("suggested".into(), current),
+            ("shared, same guarantee".into(), tp(f64::NAN, 0.2, 0.95)),
+        ];
+        let svg = tradeoff_svg(&view, (600, 380));
+        save("tradeoff-marks.svg", &svg);
+        assert_sane(&svg);
+        for text in ["suggested", "shared, same guarantee", CURRENT_LABEL] {
+            assert!(has_text(&svg, text), "missing {text:?}");
+        }
+        // A hollow triangle (a closed ink polyline of 4 points) on the chart and in the
+        // legend; crosses in the curve's colour (two strokes each) on the chart and legend.
+        let ink = format!("stroke=\"#{:02X}{:02X}{:02X}\"", INK.0, INK.1, INK.2);
+        let triangles = svg
+            .split("<polyline")
+            .skip(1)
+            .filter(|p| p.contains(&ink))
+            .filter(|p| {
+                let pts = p.split("points=\"").nth(1).and_then(|r| r.split('"').next());
+                pts.is_some_and(|pts| {
+                    let v: Vec<&str> = pts.split_whitespace().collect();
+                    v.len() == 4 && v.first() == v.last()
+                })
+            })
+            .count();
+        assert_eq!(triangles, 2, "one on the chart, one in the legend");
+        let without = tradeoff_svg(&realistic_tradeoff(), (600, 380));
+        assert!(!has_text(&without, "suggested"));
     }
 
     #[test]
@@ -457,6 +492,7 @@ mod tests {
                 current: Some(tp(0.4, 0.4, 1.0)),
                 sweep: Some((0, vec![tp(0.0, 0.5, 1.0), tp(1.0, 0.2, 1.0)])),
                 rule: "conditional".into(),
+                marks: Vec::new(),
             },
             // Specificity exactly 0 and 1, precision 0.
             TradeoffView {
@@ -464,6 +500,7 @@ mod tests {
                 current: Some(tp(1.0, 0.0, 1.0)),
                 sweep: Some((7, vec![tp(0.0, 1.0, 0.0)])),
                 rule: String::new(),
+                marks: Vec::new(),
             },
             // A sweep of one point, a current point but no curve.
             TradeoffView {
@@ -471,6 +508,7 @@ mod tests {
                 current: Some(tp(0.3, 0.3, 0.8)),
                 sweep: Some((1, vec![tp(0.3, 0.3, 0.8)])),
                 rule: "cumulative".into(),
+                marks: Vec::new(),
             },
             // Garbage.
             TradeoffView {
@@ -482,6 +520,7 @@ mod tests {
                 current: Some(tp(f64::NAN, 0.2, f64::NEG_INFINITY)),
                 sweep: Some((usize::MAX, vec![])),
                 rule: "cumulative".into(),
+                marks: vec![("x".into(), tp(f64::NAN, f64::NAN, 2.0))],
             },
         ];
         for view in &views {

@@ -333,9 +333,10 @@ pub(super) fn draw_current_marker<B: DrawingBackend>(
     area.draw(&Circle::new(at, (r * 3 / 4).max(2), color.filled()))
 }
 
-/// A named setting's marker: the first (the suggestion) an ink triangle on a white ring, the
-/// others (its baselines) crosses in the shared curve's colour, so both read apart from the
-/// round current-settings marker without colour.
+/// A named setting's marker: the first (the suggestion) a hollow ink triangle wide enough to
+/// ring the current-settings marker when both are at one point (as right after a suggestion),
+/// the others (its baselines) crosses in the shared curve's colour, so each reads apart from
+/// the round current marker without colour.
 pub(super) fn draw_mark<B: DrawingBackend>(
     area: &DrawingArea<B, Shift>,
     at: (i32, i32),
@@ -344,15 +345,14 @@ pub(super) fn draw_mark<B: DrawingBackend>(
 ) -> Result<(), DrawingAreaErrorKind<B::ErrorType>> {
     let r = marker_big(s) + 1;
     if i == 0 {
-        let tri = |r: i32| {
-            vec![
-                (at.0, at.1 - r),
-                (at.0 + r * 87 / 100, at.1 + r / 2),
-                (at.0 - r * 87 / 100, at.1 + r / 2),
-            ]
-        };
-        area.draw(&Polygon::new(tri(r + 2), WHITE.filled()))?;
-        area.draw(&Polygon::new(tri(r), INK.filled()))
+        let t = (r * 2).max(6);
+        let mut tri = vec![
+            (at.0, at.1 - t),
+            (at.0 + t * 87 / 100, at.1 + t / 2),
+            (at.0 - t * 87 / 100, at.1 + t / 2),
+        ];
+        tri.push(tri[0]);
+        area.draw(&PathElement::new(tri, INK.stroke_width(s.stroke.max(2))))
     } else {
         let w = s.stroke.max(2) + 1;
         area.draw(&PathElement::new(

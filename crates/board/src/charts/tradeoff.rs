@@ -184,10 +184,11 @@ pub fn draw_tradeoff<B: DrawingBackend>(
         occupied.extend(densify(&sweep_px, s.font * 0.4));
     }
 
-    for (i, (_, p)) in marks.iter().enumerate() {
-        let at = to_px(p);
-        let r = marker_big(s) + 1;
-        draw_mark(area, at, s, i)?;
+    // The marks go on before the current point's label is placed (so it avoids them) and are
+    // drawn over the current marker (the suggestion's hollow triangle rings it).
+    let mark_px: Vec<(i32, i32)> = marks.iter().map(|(_, p)| to_px(p)).collect();
+    for &at in &mark_px {
+        let r = 2 * (marker_big(s) + 1);
         occupied.extend([at, (at.0 - r, at.1 - r), (at.0 + r, at.1 + r)]);
     }
 
@@ -243,6 +244,10 @@ pub fn draw_tradeoff<B: DrawingBackend>(
             (at.0 - r, at.1 + r),
             (at.0 + r, at.1 + r),
         ]);
+    }
+
+    for (i, &at) in mark_px.iter().enumerate() {
+        draw_mark(area, at, s, i)?;
     }
 
     let mut entries = Vec::new();
