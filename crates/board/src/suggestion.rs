@@ -12,7 +12,8 @@ use crate::charts::TradePoint;
 use crate::state::text::show_ratio;
 use crate::state::Board;
 
-/// What the user asks the engine to suggest (the command line's defaults).
+/// What the user asks the engine to suggest: the command line's defaults, but 30 % held out so
+/// the panel can show the held-out check.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Ask {
     /// `--min-precision`.
@@ -34,7 +35,7 @@ impl Default for Ask {
             confidence: 0.9,
             maximize: Maximize::Specificity,
             holdout: 0.3,
-            seed: 1,
+            seed: 0,
             group_column: None,
         }
     }
