@@ -72,13 +72,14 @@ impl Tally {
 #[derive(Clone)]
 pub struct Walk {
     width: usize,
-    /// One record of `2·width + 2` values per predicting row (P(root) passes the object
+    /// One record of `stride` values per predicting row (P(root) passes the object
     /// threshold), kept together because the rows a move touches are scattered: at
     /// `d − 1` (d = 1…D) what the row compares at depth d (−∞ past its leaf and where a
     /// per-node override fails, +∞ where one passes); at `width + s` (s = 0…D) the information
     /// gain of stopping at depth s; last, the outcome of stopping at each depth, two bits per
-    /// depth (0 correct, 1 unverifiable, 2 wrong), stored as the bits of the f64.
+    /// depth (0 correct, 1 unverifiable, 2 wrong), 32 depths to a value, stored as its bits.
     rec: Vec<f64>,
+    stride: usize,
     rows: usize,
     /// Per depth, the local row indices with a finite or +∞ value, by value descending, and
     /// those values beside them (read in order, where the rows themselves are scattered).
@@ -110,12 +111,11 @@ impl Walk {
         let rows: Vec<u32> = (0..batch.len() as u32)
             .filter(|&r| !batch.has_objectness() || batch.root_probability(r as usize) >= object)
             .collect();
-        let stride = 2 * width + 2;
+        let stride = 2 * width + 1 + (width + 1).div_ceil(32);
         let mut rec = vec![f64::NEG_INFINITY; rows.len() * stride];
         for (i, &r) in rows.iter().enumerate() {
             let r = r as usize;
             let leaf = batch.paths().leaf(r);
-            let mut codes = 0u64;
             for s in 0..=width {
                 rec[i * stride + width + s] = tax.gain_at(leaf, s.min(tax.depth(leaf)));
                 let code = match outcome_at(batch, r, s) {
@@ -123,9 +123,10 @@ impl Walk {
                     Outcome::Unverifiable => 1,
                     _ => 2,
                 };
-                codes |= code << (2 * s);
+                let slot = &mut rec[i * stride + 2 * width + 1 + s / 32];
+                let bits = if s % 32 == 0 { 0 } else { slot.to_bits() };
+                *slot = f64::from_bits(bits | code << (2 * (s % 32)));
             }
-            rec[i * stride + 2 * width + 1] = f64::from_bits(codes);
             let cond = batch.paths().cond(r);
             let mut p = batch.root_probability(r);
             for d in 1..=tax.depth(leaf).min(width) {
@@ -168,6 +169,7 @@ impl Walk {
         let mut walk = Walk {
             width,
             rec,
+            stride,
             rows: rows.len(),
             sorted,
             keys,
@@ -191,7 +193,7 @@ impl Walk {
     }
 
     fn value(&self, i: usize, d: usize) -> f64 {
-        self.rec[i * (2 * self.width + 2) + d - 1]
+        self.rec[i * self.stride + d - 1]
     }
 
     /// Where local row `i`, now at depth `from`, stops, with depth `moved`'s threshold read
@@ -214,9 +216,9 @@ impl Walk {
     }
 
     fn scored(&self, i: usize, s: usize) -> (Outcome, f64) {
-        let base = i * (2 * self.width + 2);
-        let codes = self.rec[base + 2 * self.width + 1].to_bits();
-        let outcome = match (codes >> (2 * s)) & 3 {
+        let base = i * self.stride;
+        let codes = self.rec[base + 2 * self.width + 1 + s / 32].to_bits();
+        let outcome = match (codes >> (2 * (s % 32))) & 3 {
             0 => Outcome::Correct,
             1 => Outcome::Unverifiable,
             _ => Outcome::Wrong,
