@@ -273,3 +273,28 @@ fn a_subset_scores_like_its_rows() {
     }
     assert_eq!(evaluate(&tax, &sub, &settings).rows, 200);
 }
+
+#[test]
+fn the_walk_counts_deep_trees_too() {
+    // 40 levels: a chain with a leaf beside every link, so outcomes span more than 32 depths.
+    let mut csv = String::from("id,parent\nc1,\nx1,\n");
+    for k in 2..=40 {
+        csv.push_str(&format!("c{k},c{}\nx{k},c{}\n", k - 1, k - 1));
+    }
+    let tax = harness::taxonomy(&csv);
+    assert_eq!(tax.max_depth(), 40);
+    let batch = rows(&tax, 2000, 6);
+    let settings = harness::settings(Rule::Conditional, &[0.5], 0.3, Policy::Credit);
+    let mut walk = Walk::new(&tax, &batch, &settings);
+    let path = pareto_path(&mut walk, Maximize::Specificity, Policy::Credit);
+    for p in path.iter().step_by(5).chain(path.last()) {
+        let mut at = settings.clone();
+        at.thresholds.depths = p.thresholds.clone();
+        let m = evaluate(&tax, &batch, &at);
+        let t = p.tally;
+        assert_eq!(
+            (t.correct as u64, t.unverifiable as u64, t.wrong as u64),
+            (m.correct, m.unverifiable, m.wrong)
+        );
+    }
+}

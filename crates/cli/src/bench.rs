@@ -82,6 +82,20 @@ pub fn run(input: &Input, args: &SettingArgs, repeat: usize) -> Result<String, F
     let report = hedgerow_core::node_report(tax, batch, &settings);
     let nodes_seconds = t.elapsed().as_secs_f64();
     checksum = checksum.wrapping_add(report.root.stops);
+    // `hedgerow suggest`'s engine (precision 0.9, confidence 0.9, 30 % held out): the split,
+    // the path, the test, both baselines and the hold-out scores.
+    let request = hedgerow_core::Request {
+        target: 0.9,
+        confidence: 0.9,
+        maximize: hedgerow_core::Maximize::Specificity,
+        holdout: 0.3,
+        seed: 1,
+    };
+    let t = Instant::now();
+    let suggested = hedgerow_core::suggest(tax, batch, &settings, None, &request)
+        .map_err(|e| Failure::Input(vec![e.to_string()]))?;
+    let suggest_seconds = t.elapsed().as_secs_f64();
+    checksum = checksum.wrapping_add(suggested.record.tested as u64);
     let out = serde_json::json!({
         "rows": batch.len(),
         "nodes": tax.len(),
@@ -103,6 +117,8 @@ pub fn run(input: &Input, args: &SettingArgs, repeat: usize) -> Result<String, F
         "curve_drawn_points": drawn.len(),
         "curve_points": curve.len(),
         "nodes_seconds": nodes_seconds,
+        "suggest_seconds": suggest_seconds,
+        "suggest_path_length": suggested.record.path_length,
         "path_bytes_per_row": batch.paths().bytes_per_row(),
         "resident_growth_after_load_bytes": after.zip(before).map(|(a, b)| a.saturating_sub(b)),
         "peak_rss_during_load_bytes": peak_during_load,

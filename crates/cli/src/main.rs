@@ -123,16 +123,16 @@ enum Command {
         #[command(flatten)]
         settings: SettingArgs,
         /// The precision to guarantee, in (0, 1).
-        #[arg(long)]
+        #[arg(long, allow_hyphen_values = true)]
         min_precision: f64,
         /// Probability over the draw of the tuning rows that the guarantee holds, in (0, 1).
-        #[arg(long, default_value_t = 0.9)]
+        #[arg(long, default_value_t = 0.9, allow_hyphen_values = true)]
         confidence: f64,
         /// What to make as large as the target allows: specificity or reward.
         #[arg(long, default_value = "specificity")]
         maximize: String,
         /// Share of rows (or groups) kept out of tuning and scored at the end, in [0, 1).
-        #[arg(long, default_value_t = 0.0)]
+        #[arg(long, default_value_t = 0.0, allow_hyphen_values = true)]
         holdout: f64,
         /// Column of the labels CSV naming each row's group (an image, say): groups are kept
         /// whole when rows are split.

@@ -35,7 +35,7 @@ fn objective(t: &Tally, maximize: Maximize) -> f64 {
 /// largest gain first); stop when no move gains. Each point is then on, or close to, the
 /// precision/objective front of the settings reachable so far, and the points run from the most
 /// precise to the boldest.
-pub fn pareto_path(walk: &mut Walk<'_>, maximize: Maximize, policy: Policy) -> Vec<Point> {
+pub fn pareto_path(walk: &mut Walk, maximize: Maximize, policy: Policy) -> Vec<Point> {
     let width = walk.thresholds().len();
     let grids: Vec<Vec<f64>> = (1..=width).map(|d| walk.grid(d, GRID)).collect();
     let mut path = vec![Point {
@@ -89,7 +89,7 @@ pub fn pareto_path(walk: &mut Walk<'_>, maximize: Maximize, policy: Policy) -> V
 }
 
 /// The counts of every point of `path` on another part, walked in order.
-pub fn replay(walk: &mut Walk<'_>, path: &[Point]) -> Vec<Tally> {
+pub fn replay(walk: &mut Walk, path: &[Point]) -> Vec<Tally> {
     path.iter()
         .map(|p| {
             if p.depth > 0 {

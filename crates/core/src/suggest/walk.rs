@@ -69,17 +69,22 @@ impl Tally {
 }
 
 /// One part of a batch under per-depth thresholds that only fall.
-pub struct Walk<'a> {
-    tax: &'a Taxonomy,
-    batch: &'a Batch,
+#[derive(Clone)]
+pub struct Walk {
     width: usize,
-    /// Predicting rows (P(root) passes the object threshold), as indices into `batch`.
-    rows: Vec<u32>,
-    /// `q[i * width + d - 1]`: what row `rows[i]` compares at depth d; −∞ past its leaf and
-    /// where a per-node override fails, +∞ where one passes.
-    q: Vec<f64>,
-    /// Per depth, the local row indices with a finite or +∞ value, by value descending.
+    /// One record of `stride` values per predicting row (P(root) passes the object
+    /// threshold), kept together because the rows a move touches are scattered: at
+    /// `d − 1` (d = 1…D) what the row compares at depth d (−∞ past its leaf and where a
+    /// per-node override fails, +∞ where one passes); at `width + s` (s = 0…D) the information
+    /// gain of stopping at depth s; last, the outcome of stopping at each depth, two bits per
+    /// depth (0 correct, 1 unverifiable, 2 wrong), 32 depths to a value, stored as its bits.
+    rec: Vec<f64>,
+    stride: usize,
+    rows: usize,
+    /// Per depth, the local row indices with a finite or +∞ value, by value descending, and
+    /// those values beside them (read in order, where the rows themselves are scattered).
     sorted: Vec<Vec<u32>>,
+    keys: Vec<Vec<f64>>,
     /// Per depth, how far `sorted` has been passed by the threshold.
     cursor: Vec<usize>,
     stop: Vec<u8>,
@@ -87,10 +92,10 @@ pub struct Walk<'a> {
     tally: Tally,
 }
 
-impl<'a> Walk<'a> {
+impl Walk {
     /// The part `batch` under `settings`' rule, object threshold and per-node overrides, with
     /// every depth's threshold at 1 (the most cautious setting).
-    pub fn new(tax: &'a Taxonomy, batch: &'a Batch, settings: &Settings) -> Self {
+    pub fn new(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Self {
         let width = batch.paths().width();
         let object = crate::curve::object_threshold(tax, settings);
         let resolved = settings.thresholds.resolve(tax);
@@ -106,10 +111,22 @@ impl<'a> Walk<'a> {
         let rows: Vec<u32> = (0..batch.len() as u32)
             .filter(|&r| !batch.has_objectness() || batch.root_probability(r as usize) >= object)
             .collect();
-        let mut q = vec![f64::NEG_INFINITY; rows.len() * width];
+        let stride = 2 * width + 1 + (width + 1).div_ceil(32);
+        let mut rec = vec![f64::NEG_INFINITY; rows.len() * stride];
         for (i, &r) in rows.iter().enumerate() {
             let r = r as usize;
             let leaf = batch.paths().leaf(r);
+            for s in 0..=width {
+                rec[i * stride + width + s] = tax.gain_at(leaf, s.min(tax.depth(leaf)));
+                let code = match outcome_at(batch, r, s) {
+                    Outcome::Correct => 0,
+                    Outcome::Unverifiable => 1,
+                    _ => 2,
+                };
+                let slot = &mut rec[i * stride + 2 * width + 1 + s / 32];
+                let bits = if s % 32 == 0 { 0 } else { slot.to_bits() };
+                *slot = f64::from_bits(bits | code << (2 * (s % 32)));
+            }
             let cond = batch.paths().cond(r);
             let mut p = batch.root_probability(r);
             for d in 1..=tax.depth(leaf).min(width) {
@@ -120,7 +137,7 @@ impl<'a> Walk<'a> {
                     Rule::Conditional => c,
                 };
                 let node = tax.ancestor(leaf, d) as usize;
-                q[i * width + d - 1] = if overridden.get(node).copied().unwrap_or(false) {
+                rec[i * stride + d - 1] = if overridden.get(node).copied().unwrap_or(false) {
                     if v >= resolved[node] {
                         f64::INFINITY
                     } else {
@@ -133,41 +150,41 @@ impl<'a> Walk<'a> {
                 };
             }
         }
-        let sorted = (0..width)
+        let (sorted, keys): (Vec<Vec<u32>>, Vec<Vec<f64>>) = (0..width)
             .map(|d| {
                 // Keys order like the values: non-negative floats order like their bits
                 // (−0.0 passes only a threshold of 0, as 0.0 does); −∞ never passes, so
                 // those rows are left out.
                 let mut keyed: Vec<(u64, u32)> = (0..rows.len())
                     .filter_map(|i| {
-                        let v = q[i * width + d];
+                        let v = rec[i * stride + d];
                         (v >= 0.0).then(|| ((v + 0.0).to_bits(), i as u32))
                     })
                     .collect();
                 keyed.sort_unstable_by(|a, b| b.cmp(a));
-                keyed.into_iter().map(|(_, i)| i).collect()
+                let values = keyed.iter().map(|&(k, _)| f64::from_bits(k)).collect();
+                (keyed.into_iter().map(|(_, i)| i).collect(), values)
             })
-            .collect();
+            .unzip();
         let mut walk = Walk {
-            tax,
-            batch,
             width,
-            rows,
-            q,
+            rec,
+            stride,
+            rows: rows.len(),
             sorted,
+            keys,
             cursor: vec![0; width],
             stop: Vec::new(),
             thresholds: vec![1.0; width],
             tally: Tally::default(),
         };
         for d in 0..width {
-            walk.cursor[d] =
-                walk.sorted[d].partition_point(|&i| walk.value(i as usize, d + 1) >= 1.0);
+            walk.cursor[d] = walk.keys[d].partition_point(|&v| v >= 1.0);
         }
-        walk.stop = (0..walk.rows.len())
+        walk.stop = (0..walk.rows)
             .map(|i| walk.descend(i, 0, 0, 1.0) as u8)
             .collect();
-        for i in 0..walk.rows.len() {
+        for i in 0..walk.rows {
             let s = walk.stop[i] as usize;
             let (o, g) = walk.scored(i, s);
             walk.tally.add(o, g, 1);
@@ -176,7 +193,7 @@ impl<'a> Walk<'a> {
     }
 
     fn value(&self, i: usize, d: usize) -> f64 {
-        self.q[i * self.width + d - 1]
+        self.rec[i * self.stride + d - 1]
     }
 
     /// Where local row `i`, now at depth `from`, stops, with depth `moved`'s threshold read
@@ -199,11 +216,14 @@ impl<'a> Walk<'a> {
     }
 
     fn scored(&self, i: usize, s: usize) -> (Outcome, f64) {
-        let r = self.rows[i] as usize;
-        (
-            outcome_at(self.batch, r, s),
-            self.tax.gain_at(self.batch.paths().leaf(r), s),
-        )
+        let base = i * self.stride;
+        let codes = self.rec[base + 2 * self.width + 1 + s / 32].to_bits();
+        let outcome = match (codes >> (2 * (s % 32))) & 3 {
+            0 => Outcome::Correct,
+            1 => Outcome::Unverifiable,
+            _ => Outcome::Wrong,
+        };
+        (outcome, self.rec[base + self.width + s])
     }
 
     pub fn tally(&self) -> Tally {
@@ -217,26 +237,26 @@ impl<'a> Walk<'a> {
 
     /// Predicting rows of the part.
     pub fn predictions(&self) -> usize {
-        self.rows.len()
+        self.rows
     }
 
     /// The rows depth `d` (1…D) passes at threshold `t`, counted from the top: the cursor
     /// position that lowering to `t` would reach.
     fn reach(&self, d: usize, t: f64) -> usize {
-        let list = &self.sorted[d - 1];
+        let keys = &self.keys[d - 1];
         let start = self.cursor[d - 1];
-        start + list[start..].partition_point(|&i| self.value(i as usize, d) >= t)
+        start + keys[start..].partition_point(|&v| v >= t)
     }
 
     /// The values at which depth `d` would next move something, from the current cursor: the
     /// value of the first row in `sorted` below the cursor that stopped at d − 1 (`None`: no
     /// row can move at this depth now).
     pub fn next_mover(&self, d: usize) -> Option<f64> {
-        let list = &self.sorted[d - 1];
-        list[self.cursor[d - 1]..]
+        let start = self.cursor[d - 1];
+        self.sorted[d - 1][start..]
             .iter()
-            .find(|&&i| self.stop[i as usize] as usize == d - 1)
-            .map(|&i| self.value(i as usize, d))
+            .position(|&i| self.stop[i as usize] as usize == d - 1)
+            .map(|k| self.keys[d - 1][start + k])
     }
 
     /// What lowering depth `d`'s threshold to `t` would change, without changing anything.
@@ -283,19 +303,18 @@ impl<'a> Walk<'a> {
     }
 }
 
-impl Walk<'_> {
+impl Walk {
     /// Up to `k` candidate thresholds for depth `d`, descending: the values at evenly spaced
     /// ranks of the part's own values at that depth (so each step moves about as many rows),
     /// those in [0, 1] only, without repeats, ending with 0.
     pub fn grid(&self, d: usize, k: usize) -> Vec<f64> {
-        let list = &self.sorted[d - 1];
+        let keys = &self.keys[d - 1];
         let mut out: Vec<f64> = Vec::with_capacity(k + 1);
         for j in 1..=k {
-            let rank = (j * list.len()).div_ceil(k);
-            let Some(&i) = rank.checked_sub(1).and_then(|r| list.get(r)) else {
+            let rank = (j * keys.len()).div_ceil(k);
+            let Some(&v) = rank.checked_sub(1).and_then(|r| keys.get(r)) else {
                 continue;
             };
-            let v = self.value(i as usize, d) + 0.0;
             if (0.0..=1.0).contains(&v) && out.last().is_none_or(|&l| v < l) {
                 out.push(v);
             }
