@@ -12,6 +12,7 @@ mod profile;
 mod properties;
 mod robustness;
 mod rules;
+mod tally;
 mod worked;
 #[path = "../common/zip.rs"]
 mod zip;
