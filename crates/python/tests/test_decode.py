@@ -114,10 +114,13 @@ def test_a_profile_for_another_taxonomy_is_refused_as_the_cli_refuses_it(tmp_pat
     assert str(e.value) == message
 
 
-def test_a_value_that_is_not_finite_is_named_by_row_and_column(tmp_path, demo, profiles):
-    logits = np.asarray(demo["logits"][:50], dtype="float32", order="F")
-    logits[7, 3] = np.nan
-    logits[9, 5] = np.inf
+@pytest.mark.parametrize("dtype", ["float16", "float32", "float64"])
+@pytest.mark.parametrize("order", ["C", "F"])
+def test_a_value_that_is_not_finite_is_named_by_row_and_column(tmp_path, demo, dtype, order):
+    logits = np.array(demo["logits"][:150], dtype=dtype, order=order)  # a copy: it is changed
+    # Past the first block of rows the engine checks at once, and an inf after it.
+    logits[77, 3] = np.nan
+    logits[99, 5] = np.inf
     path = tmp_path / "bad.npy"
     np.save(path, logits)
     cli = run_cli("decode", "--taxonomy", DEMO / "taxonomy.csv", "--logits", path, check=False)
@@ -127,7 +130,10 @@ def test_a_value_that_is_not_finite_is_named_by_row_and_column(tmp_path, demo, p
         with pytest.raises(ValueError) as e:
             dec.decode(logits, threads=threads)
         assert str(e.value) == first
-        assert "row 7, column 3" in str(e.value)
+        assert "row 77, column 3" in str(e.value)
+    logits[77, 3] = 0
+    with pytest.raises(ValueError, match="row 99, column 5 .*found inf"):
+        dec.decode(logits)
 
 
 def test_bad_arrays_raise_value_error(demo, profiles):
