@@ -39,8 +39,7 @@ def write_shards(out: Path, shards: int):
 
 
 def decode_shard(taxonomy: bytes, profile: bytes, shard: str):
-    """One partition: its decisions and its tally (both pickled back to the client)."""
-    dec = hedgerow.Decoder(taxonomy, profile)
+    dec = hedgerow.Decoder(taxonomy, profile)       # built on the worker, from bytes
     logits = np.load(f"{shard}-logits.npy", mmap_mode="r")
     objectness = np.load(f"{shard}-objectness.npy")
     labels = np.load(f"{shard}-labels.npy")
