@@ -166,3 +166,15 @@ def test_an_empty_batch_decodes_to_empty_arrays():
     dec = hedgerow.Decoder(DEMO / "taxonomy.csv")
     out = dec.decode(np.zeros((0, len(dec.node_ids)), dtype="float32"), threads=4)
     assert [len(v) for v in out.values()] == [0, 0, 0]
+
+
+def test_the_package_ships_its_type_stubs_and_docstrings():
+    from pathlib import Path
+
+    folder = Path(hedgerow.__file__).parent
+    assert (folder / "py.typed").exists()
+    stubs = (folder / "__init__.pyi").read_text()
+    for name in ["class Decoder", "def decode", "class Tally", "def evaluate", "def tally"]:
+        assert name in stubs, name
+    assert "-2 when the row abstained" in hedgerow.Decoder.decode.__doc__
+    assert "metrics" in hedgerow.Tally.__doc__ and hedgerow.evaluate.__doc__
