@@ -113,4 +113,15 @@ fn tallies_of_other_settings_or_another_taxonomy_are_refused() {
         .replacen("\"predicted_at\":[", "\"predicted_at\":[0,", 1);
     let e = Tallies::from_json(json.as_bytes()).expect_err("wrong size");
     assert!(e.to_string().contains("predictions per node"), "{e}");
+    // Counts at the top of u64, as a tampered JSON may hold: they add and make metrics without
+    // a panic (the sums wrap).
+    let max = u64::MAX.to_string();
+    let json = a
+        .to_json()
+        .replacen("\"correct\":", &format!("\"correct\":{max},\"x\":"), 1)
+        .replacen("\"rows\":", &format!("\"rows\":{max},\"y\":"), 1);
+    let big = Tallies::from_json(json.as_bytes()).expect("sizes are right");
+    let sum = (big.clone() + big).expect("same stamp");
+    let m = sum.into_metrics(&tax).expect("metrics");
+    assert_eq!(m.rows, u64::MAX - 1);
 }

@@ -9,7 +9,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::batch::Batch;
 use crate::error::ErrorKind;
-use crate::eval::{precision, ratio, Metrics, OutcomeShare, Sums};
+use crate::eval::{precision, ratio, Metrics, OutcomeCount, OutcomeShare, Sums};
 use crate::settings::{Policy, Rule, Settings, Temperatures, Thresholds};
 use crate::taxonomy::Taxonomy;
 
@@ -183,10 +183,13 @@ impl Tallies {
                 .sum()
         };
         let (gain_sum, reward_sum) = (weigh(predicted_at), weigh(correct_at));
-        let correct: u64 = stop_count.iter().map(|c| c.correct).sum();
-        let unverifiable: u64 = stop_count.iter().map(|c| c.unverifiable).sum();
-        let wrong: u64 = stop_count.iter().map(|c| c.wrong).sum();
-        let predictions = correct + unverifiable + wrong;
+        // Wrapping sums: tallies read back from JSON may hold any u64 (see `merge`).
+        let total =
+            |k: fn(&OutcomeCount) -> u64| stop_count.iter().fold(0u64, |a, c| a.wrapping_add(k(c)));
+        let correct = total(|c| c.correct);
+        let unverifiable = total(|c| c.unverifiable);
+        let wrong = total(|c| c.wrong);
+        let predictions = correct.wrapping_add(unverifiable).wrapping_add(wrong);
         let n = predictions as f64;
         let hp = ratio(*h_inter as f64, *h_pred as f64);
         let hr = ratio(*h_inter as f64, self.label_depth_sum as f64);
@@ -211,7 +214,10 @@ impl Tallies {
             reward: ratio(reward_sum, n),
             stop_share: stop_count
                 .iter()
-                .map(|c| ratio((c.correct + c.unverifiable + c.wrong) as f64, n))
+                .map(|c| {
+                    let k = c.correct.wrapping_add(c.unverifiable).wrapping_add(c.wrong);
+                    ratio(k as f64, n)
+                })
                 .collect(),
             stop_outcome: stop_count
                 .iter()
