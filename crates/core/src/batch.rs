@@ -296,11 +296,12 @@ impl Objectness {
                         file,
                         Location::row(r as u64),
                         ErrorKind::NotProbability {
-                            // As the file holds it: 1.2 in float32, not its f64 widening.
-                            found: if h.dtype.scalar == crate::npy::Scalar::F64 {
-                                v.to_string()
-                            } else {
+                            // As the file holds it: 1.2 in float32, not its f64 widening
+                            // (a value float32 holds exactly is shown as float32's).
+                            found: if f64::from(v32) == v {
                                 v32.to_string()
+                            } else {
+                                v.to_string()
                             },
                         },
                     ));
