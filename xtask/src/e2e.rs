@@ -10,8 +10,12 @@
 //! gaps and memory) to `target/e2e/figures.txt`. Generated batches are kept (and reused) under
 //! `target/e2e/batch-*`.
 //!
+//! `a11y.rs` runs axe-core (npm, pinned in `xtask/e2e-assets/package-lock.json`, installed
+//! with `npm ci` when missing) on every page state.
+//!
 //! Add tests in a module under `e2e/` and list them in [`all_tests`].
 
+mod a11y;
 mod big;
 mod harness;
 mod journey;
@@ -93,6 +97,7 @@ fn all_tests() -> Vec<Test> {
     let mut tests = page::tests();
     tests.extend(journey::tests());
     tests.extend(privacy::tests());
+    tests.extend(a11y::tests());
     tests.extend(big::tests());
     tests
 }
