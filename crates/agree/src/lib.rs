@@ -24,7 +24,7 @@ impl Rng {
     pub fn new(seed: u64) -> Self {
         Rng(seed)
     }
-    pub fn next(&mut self) -> u64 {
+    pub fn next_u64(&mut self) -> u64 {
         self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
         let mut z = self.0;
         z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
@@ -33,11 +33,11 @@ impl Rng {
     }
     /// Uniform in `0..n` (`n` ≥ 1).
     pub fn below(&mut self, n: usize) -> usize {
-        (self.next() % n.max(1) as u64) as usize
+        (self.next_u64() % n.max(1) as u64) as usize
     }
     /// Uniform in [0, 1).
     pub fn unit(&mut self) -> f64 {
-        (self.next() >> 11) as f64 / (1u64 << 53) as f64
+        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
     }
     fn pick<T: Copy>(&mut self, from: &[T]) -> T {
         from[self.below(from.len())]

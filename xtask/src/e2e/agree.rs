@@ -4,7 +4,7 @@
 
 use std::time::Instant;
 
-use anyhow::{bail, ensure, Context};
+use anyhow::{bail, Context};
 use serde_json::{json, Value};
 
 use super::{Browser, Ctx, Test};
