@@ -463,6 +463,11 @@ async fn catalogue_cases(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
             "{case}: the batch in use became {now:?} from {in_use:?}"
         );
         if case == "npy-nan-and-inf" {
+            b.eval(
+                "document.querySelector(arguments[0]).scrollIntoView({ block: 'center' });",
+                vec![json!(Browser::testid("file-logits"))],
+            )
+            .await?;
             screenshot(b, c, "bad-input-nan.png").await?;
         }
     }
