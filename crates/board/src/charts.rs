@@ -15,17 +15,20 @@
 //! their own fixed per-character measure. The legends are drawn by hand (not plotters' series
 //! labels, which measure through the font layer instead of the backend).
 //!
-//! The caller calls `present()`.
+//! The caller calls `present()`. [`TradeoffView::tables`] and [`StopView::tables`] give the
+//! same numbers as tables, the charts' text alternative.
 
 mod common;
 pub mod icicle;
 mod stops;
+mod table;
 mod tradeoff;
 
 use plotters::style::RGBColor;
 
 pub use icicle::{draw_icicle, icicle_view, IcicleCell, IcicleView};
 pub use stops::draw_stops;
+pub use table::{DataTable, MAX_ROWS};
 pub use tradeoff::draw_tradeoff;
 
 /// Texts the charts draw, for callers (and tests) that look for them.

@@ -108,7 +108,9 @@ pub fn descend_with(
             let max = scratch.iter().copied().fold(f64::NEG_INFINITY, f64::max);
             let mut sum = 0.0;
             for z in scratch.iter_mut() {
-                *z = (*z - max).exp();
+                // libm's exp, not the platform's (glibc natively, libm in wasm): the same bits
+                // in the page and the command line.
+                *z = libm::exp(*z - max);
                 sum += *z;
             }
             let mut best = 0;

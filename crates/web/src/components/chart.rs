@@ -1,11 +1,12 @@
 //! One chart on a `<canvas>`, drawn by `hedgerow_board::charts` through plotters' canvas
 //! backend after each render where its view (or the window's width) changed. The backing store
 //! is sized by `devicePixelRatio`; the chart functions scale text and lines from the pixel size,
-//! so text stays crisp and the same size on screen.
+//! so text stays crisp and the same size on screen. Beside the canvas, the plotted numbers as
+//! tables in a `<details>` (the canvas's `aria-describedby`), for screen readers and keyboards.
 
 use std::rc::Rc;
 
-use hedgerow_board::charts::{draw_stops, draw_tradeoff, StopView, TradeoffView};
+use hedgerow_board::charts::{draw_stops, draw_tradeoff, DataTable, StopView, TradeoffView};
 use plotters::prelude::*;
 use plotters_canvas::CanvasBackend;
 use web_sys::HtmlCanvasElement;
@@ -68,13 +69,38 @@ pub fn chart(props: &ChartProps) -> Html {
             }
         });
     }
+    let tables = match &*props.view {
+        ChartView::Tradeoff(v) => v.tables(),
+        ChartView::Stops(v) => v.tables(),
+    };
+    let data_id = format!("{}-data", props.id);
     html! {
         <figure class="chart">
             <figcaption>
                 <h3>{ props.title.clone() }</h3>
                 <p class="help">{ props.caption.clone() }</p>
             </figcaption>
-            <canvas ref={canvas} data-testid={props.id.clone()} role="img" aria-label={props.title.clone()}></canvas>
+            <canvas ref={canvas} data-testid={props.id.clone()} role="img" aria-label={props.title.clone()}
+                aria-describedby={data_id.clone()}></canvas>
+            // The text alternative: the plotted numbers, one table per series.
+            <details class="chart-data" id={data_id.clone()} data-testid={data_id}>
+                <summary>{ "The numbers in this chart" }</summary>
+                { for tables.iter().map(data_table) }
+            </details>
         </figure>
+    }
+}
+
+fn data_table(t: &DataTable) -> Html {
+    html! {
+        <table>
+            <caption>{ t.caption.clone() }</caption>
+            <thead><tr>{ for t.head.iter().map(|h| html! { <th scope="col">{ h.clone() }</th> }) }</tr></thead>
+            <tbody>
+                { for t.rows.iter().map(|r| html! {
+                    <tr>{ for r.iter().map(|c| html! { <td>{ c.clone() }</td> }) }</tr>
+                }) }
+            </tbody>
+        </table>
     }
 }
