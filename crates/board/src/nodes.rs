@@ -92,8 +92,7 @@ impl NodeTracker {
             let s = hedgerow_core::eval::stop_depth(tax, batch, settings.rule, &thresholds, r);
             let new = s.map(|s| s as u8);
             if new != *slot {
-                self.counts
-                    .shift(tax, batch, r, slot.map(usize::from), s);
+                self.counts.shift(tax, batch, r, slot.map(usize::from), s);
                 if slot.is_none() != new.is_none() {
                     count_abstained(tax, batch, &mut self.abstained, r, new.is_none());
                 }
@@ -194,7 +193,10 @@ impl Column {
     /// Whether a first click sorts this column high to low (counts and precision: the largest
     /// first is what one looks for).
     pub fn starts_descending(self) -> bool {
-        !matches!(self, Column::File | Column::Id | Column::Name | Column::Depth)
+        !matches!(
+            self,
+            Column::File | Column::Id | Column::Name | Column::Depth
+        )
     }
 }
 

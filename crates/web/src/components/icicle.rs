@@ -29,7 +29,11 @@ pub struct IcicleProps {
     pub on_select: Callback<u32>,
 }
 
-fn draw(canvas: &HtmlCanvasElement, view: &IcicleView, selected: Option<u32>) -> Result<(), String> {
+fn draw(
+    canvas: &HtmlCanvasElement,
+    view: &IcicleView,
+    selected: Option<u32>,
+) -> Result<(), String> {
     let ratio = pixel_ratio();
     let (css_w, css_h) = (canvas.client_width(), canvas.client_height());
     if css_w <= 0 || css_h <= 0 {
@@ -154,7 +158,11 @@ pub fn icicle(props: &IcicleProps) -> Html {
     };
     let crumb_items = crumbs.iter().enumerate().map(|(i, &v)| {
         let id = tax.id(v);
-        let label = if id.is_empty() { "whole tree".to_string() } else { id.to_string() };
+        let label = if id.is_empty() {
+            "whole tree".to_string()
+        } else {
+            id.to_string()
+        };
         let last = i + 1 == crumbs.len();
         let onclick = props.on_focus.reform(move |_: MouseEvent| v);
         html! {
