@@ -385,3 +385,19 @@ fn the_inspector_lists_filtered_rows_and_walks_one_path() {
     }
     assert!(row_detail(tax, batch, &b.settings, batch.len()).is_none());
 }
+
+#[test]
+fn the_curve_csv_is_the_command_lines() {
+    let mut b = loaded();
+    b.apply(Action::SetNodeThreshold {
+        id: "glass".into(),
+        value: Some(0.9),
+    });
+    let a = b.active.as_ref().expect("active");
+    let text = hedgerow_board::nodes::curve_csv(&b).expect("csv");
+    let points = hedgerow_core::exact_curve_for(&a.taxonomy, &a.batch, &b.settings);
+    let want = hedgerow_core::curve::curve_csv(&points).expect("core csv");
+    assert_eq!(text.as_bytes(), want.as_slice());
+    assert!(text.starts_with("threshold,predictions,correct,unverifiable,wrong,precision,"));
+    assert_eq!(text.lines().count(), points.len() + 1);
+}

@@ -154,6 +154,15 @@ pub fn csv(tax: &Taxonomy, report: &NodeReport) -> Option<String> {
     String::from_utf8(bytes).ok()
 }
 
+/// The exact shared-threshold curve under the board's settings (per-node thresholds held) as
+/// CSV, the bytes `hedgerow curve` writes for the same files and flags. Computed on request:
+/// the chart draws a thinned copy.
+pub fn curve_csv(board: &crate::state::Board) -> Option<String> {
+    let a = board.active.as_ref()?;
+    let points = hedgerow_core::exact_curve_for(&a.taxonomy, &a.batch, &board.settings);
+    String::from_utf8(hedgerow_core::curve::curve_csv(&points).ok()?).ok()
+}
+
 /// A column of the table, to sort by.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum Column {

@@ -12,7 +12,9 @@ use std::process::Command;
 use anyhow::{ensure, Context};
 use serde_json::{json, Value};
 
-use super::page::{evaluate_files, expect_headline, fresh_demo, screenshot};
+use super::page::{
+    clear_dir, evaluate_files, expect_headline, fresh_demo, screenshot, wait_download,
+};
 use super::{Browser, Ctx, Test};
 use crate::wordnet::{self, Generated, Options};
 
@@ -201,6 +203,14 @@ async fn expect_table(
         ensure!(g == Some(w), "{what}: node {id:?}: page {g:?}, CLI {w:?}");
     }
     Ok(())
+}
+
+/// Click a download control and return the file's bytes.
+async fn download(b: &Browser, id: &str, name: &str) -> anyhow::Result<Vec<u8>> {
+    clear_dir(&b.download_dir)?;
+    b.click(id).await?;
+    let path = wait_download(&b.download_dir, |n| n == name, name, b.timeout).await?;
+    Ok(std::fs::read(path)?)
 }
 
 async fn load(b: &Browser, c: &Ctx, files: &[(&str, &Path)]) -> anyhow::Result<()> {
