@@ -401,3 +401,14 @@ fn the_curve_csv_is_the_command_lines() {
     assert!(text.starts_with("threshold,predictions,correct,unverifiable,wrong,precision,"));
     assert_eq!(text.lines().count(), points.len() + 1);
 }
+
+#[test]
+fn a_chart_exports_as_svg_through_its_drawing_function() {
+    let b = loaded();
+    let view = b.stop_view();
+    let svg = hedgerow_board::charts::svg_of((640, 360), |area| {
+        hedgerow_board::charts::draw_stops(area, &view)
+    })
+    .expect("svg");
+    assert!(svg.starts_with("<svg") && svg.contains("depth where descent stops"));
+}

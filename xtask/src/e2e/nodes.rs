@@ -25,7 +25,7 @@ pub fn tests() -> Vec<Test> {
             |b, c| Box::pin(table_equals_cli(b, c)),
         ),
         Test::new(
-            "where it fails: the inspector's paths equal hedgerow decode; the taxonomy view focuses and goes back",
+            "where it fails: the inspector's paths equal hedgerow decode; the taxonomy view focuses and goes back; the charts download as SVG",
             |b, c| Box::pin(inspector_and_view(b, c)),
         ),
     ]
@@ -416,5 +416,22 @@ async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     b.click("icicle-whole").await?;
     let crumbs = b.text("icicle-breadcrumb").await?;
     ensure!(crumbs.trim() == "whole tree", "back: {crumbs:?}");
+    // Each chart downloads as SVG, drawn by the canvas's function.
+    for (id, name, part) in [
+        (
+            "chart-stops-svg",
+            "chart-stops.svg",
+            "depth where descent stops",
+        ),
+        ("chart-tradeoff-svg", "chart-tradeoff.svg", "specificity"),
+        ("icicle-svg", "taxonomy-view.svg", "reached the node"),
+    ] {
+        let svg = String::from_utf8(download(b, id, name).await?)?;
+        ensure!(
+            svg.starts_with("<svg") && svg.contains(part),
+            "{name}: {} bytes, no {part:?}",
+            svg.len()
+        );
+    }
     Ok(())
 }
