@@ -31,6 +31,24 @@ pub use stops::draw_stops;
 pub use table::{DataTable, MAX_ROWS};
 pub use tradeoff::draw_tradeoff;
 
+/// A chart as SVG text, `w` × `h` pixels: the same drawing function on plotters' SVG backend
+/// (the page's "Download SVG"). `None` if drawing failed.
+pub fn svg_of(
+    (w, h): (u32, u32),
+    draw: impl FnOnce(
+        &plotters::drawing::DrawingArea<plotters::prelude::SVGBackend, plotters::coord::Shift>,
+    ) -> Result<(), plotters::drawing::DrawingAreaErrorKind<std::io::Error>>,
+) -> Option<String> {
+    use plotters::prelude::*;
+    let mut out = String::new();
+    {
+        let area = SVGBackend::with_string(&mut out, (w, h)).into_drawing_area();
+        draw(&area).ok()?;
+        area.present().ok()?;
+    }
+    Some(out)
+}
+
 /// Texts the charts draw, for callers (and tests) that look for them.
 pub mod labels {
     pub use super::stops::{

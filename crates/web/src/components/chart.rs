@@ -6,7 +6,9 @@
 
 use std::rc::Rc;
 
-use hedgerow_board::charts::{draw_stops, draw_tradeoff, DataTable, StopView, TradeoffView};
+use hedgerow_board::charts::{
+    draw_stops, draw_tradeoff, svg_of, DataTable, StopView, TradeoffView,
+};
 use plotters::prelude::*;
 use plotters_canvas::CanvasBackend;
 use web_sys::HtmlCanvasElement;
@@ -74,6 +76,30 @@ pub fn chart(props: &ChartProps) -> Html {
         ChartView::Stops(v) => v.tables(),
     };
     let data_id = format!("{}-data", props.id);
+    let on_svg = {
+        let (canvas, view, id) = (canvas.clone(), props.view.clone(), props.id.clone());
+        Callback::from(move |_: MouseEvent| {
+            let Some(c) = canvas.cast::<HtmlCanvasElement>() else {
+                return;
+            };
+            let dims = (
+                c.client_width().max(320) as u32,
+                c.client_height().max(200) as u32,
+            );
+            let svg = svg_of(dims, |area| match &*view {
+                ChartView::Tradeoff(v) => draw_tradeoff(area, v),
+                ChartView::Stops(v) => draw_stops(area, v),
+            });
+            let result = svg
+                .ok_or_else(|| "the chart could not be drawn".to_string())
+                .and_then(|text| {
+                    crate::browser::download(&format!("{id}.svg"), "image/svg+xml", &text)
+                });
+            if let Err(e) = result {
+                web_sys::console::warn_1(&format!("chart SVG: {e}").into());
+            }
+        })
+    };
     html! {
         <figure class="chart">
             <figcaption>
@@ -82,6 +108,8 @@ pub fn chart(props: &ChartProps) -> Html {
             </figcaption>
             <canvas ref={canvas} data-testid={props.id.clone()} role="img" aria-label={props.title.clone()}
                 aria-describedby={data_id.clone()}></canvas>
+            <button type="button" class="link chart-export" data-testid={format!("{}-svg", props.id)} onclick={on_svg}
+                title="Download this chart as SVG (drawn by the same function as the canvas)">{ "Download SVG" }</button>
             // The text alternative: the plotted numbers, one table per series.
             <details class="chart-data" id={data_id.clone()} data-testid={data_id}>
                 <summary>{ "The numbers in this chart" }</summary>
