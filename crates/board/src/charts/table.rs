@@ -79,6 +79,17 @@ impl TradeoffView {
                 });
             }
         }
+        if !self.marks.is_empty() {
+            out.push(DataTable {
+                caption: "marked settings".into(),
+                head: vec!["setting".into(), X_DESC.into(), Y_DESC.into()],
+                rows: self
+                    .marks
+                    .iter()
+                    .map(|(l, p)| vec![l.clone(), percent(p.specificity), percent(p.precision)])
+                    .collect(),
+            });
+        }
         out
     }
 }
@@ -121,9 +132,14 @@ mod tests {
             current: Some(point(0.5)),
             sweep: Some((2, (0..=10).map(|i| point(i as f64 / 10.0)).collect())),
             rule: "cumulative".into(),
+            marks: vec![("suggested".into(), point(0.25))],
         };
         let t = v.tables();
-        assert_eq!(t.len(), 3);
+        assert_eq!(t.len(), 4);
+        assert_eq!(
+            t[3].rows,
+            vec![vec!["suggested".to_string(), "12.5%".into(), "75%".into()]]
+        );
         assert_eq!(t[0].rows, vec![vec!["25%".to_string(), "50%".to_string()]]);
         assert_eq!(t[1].rows.len(), MAX_ROWS);
         assert_eq!(t[1].rows[0][0], "0.000");
