@@ -1,6 +1,6 @@
 //! The Python side of `cargo xtask test`: a virtual environment at
 //! `<root>/.venv` with `tests/python/requirements.txt` installed, the external
-//! checks (`check_cli.py`, `check_hiclass.py`, `peer.py`) run with it, and the
+//! checks (`check_cli.py`, `scipy_intervals.py`, `check_hiclass.py`, `peer.py`) run with it, and the
 //! `hedgerow` package (crates/python) built into it and its pytest suite run.
 
 use std::fs;
@@ -15,8 +15,9 @@ const REQUIREMENTS: &str = "tests/python/requirements.txt";
 /// A copy of the requirements last installed into the venv.
 const STAMP: &str = "hedgerow-requirements.txt";
 /// The check scripts, run in this order.
-const CHECKS: [&str; 3] = [
+const CHECKS: [&str; 4] = [
     "tests/python/check_cli.py",
+    "tests/python/scipy_intervals.py",
     "tests/python/check_hiclass.py",
     "tests/python/peer.py",
 ];
