@@ -280,6 +280,16 @@ fn the_icicle_lays_out_and_draws_its_cells() {
         );
         assert_eq!(c.row, parent.row + 1);
     }
+    // Its text alternative: the root first with every labelled row, the largest cells after.
+    let table = view.table(tax);
+    assert!(table.rows.len() <= hedgerow_board::charts::MAX_ROWS);
+    assert_eq!(table.rows[0][0], "(root)");
+    assert_eq!(table.rows[0][2], fates[tax.root() as usize].labelled.to_string());
+    assert!(
+        table.caption.contains(&format!("of its {} cells", view.cells.len()))
+            || view.cells.len() <= hedgerow_board::charts::MAX_ROWS
+    );
+
     // Focus a subtree: it takes the whole width.
     let glass = tax.lookup("glass").expect("glass");
     let focused = icicle_view(tax, fates, glass);

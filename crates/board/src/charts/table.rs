@@ -4,7 +4,7 @@
 
 use super::stops::{percent, OUTCOME_LABELS, X_DESC as STOPS_X_DESC};
 use super::tradeoff::{sweep_label, CURRENT_LABEL, CURVE_LABEL, X_DESC, Y_DESC};
-use super::{StopView, TradePoint, TradeoffView};
+use super::{IcicleView, StopView, TradePoint, TradeoffView};
 
 /// Rows a table holds at most.
 pub const MAX_ROWS: usize = 41;
@@ -91,6 +91,71 @@ impl TradeoffView {
             });
         }
         out
+    }
+}
+
+impl IcicleView {
+    /// The taxonomy view's cells as one table: the focused node first, then the cells with the
+    /// most labelled rows (at most [`MAX_ROWS`]), in band order; each with what happened to the
+    /// rows labelled at or below it, as shares of them.
+    pub fn table(&self, tax: &hedgerow_core::Taxonomy) -> DataTable {
+        let mut cells: Vec<&super::IcicleCell> = self.cells.iter().collect();
+        let n = cells.len();
+        cells.sort_by(|a, b| {
+            (a.row > 0)
+                .cmp(&(b.row > 0))
+                .then(b.fate.labelled.cmp(&a.fate.labelled))
+                .then(a.node.cmp(&b.node))
+        });
+        cells.truncate(MAX_ROWS);
+        cells.sort_by(|a, b| a.row.cmp(&b.row).then(a.x0.total_cmp(&b.x0)));
+        let share = |k: u64, of: u64| {
+            if of == 0 {
+                "–".to_string()
+            } else {
+                percent(k as f64 / of as f64)
+            }
+        };
+        let name = |v: u32| {
+            if (v as usize) >= tax.len() {
+                "(root)".to_string()
+            } else {
+                tax.id(v).to_string()
+            }
+        };
+        DataTable {
+            caption: if n > MAX_ROWS {
+                format!("the taxonomy view: the {MAX_ROWS} largest of its {n} cells")
+            } else {
+                "the taxonomy view, cell by cell".into()
+            },
+            head: [
+                "node",
+                "band",
+                "rows labelled at or below",
+                "reached the node",
+                "stopped above",
+                "wrong",
+                "abstained",
+            ]
+            .map(String::from)
+            .to_vec(),
+            rows: cells
+                .iter()
+                .map(|c| {
+                    let f = &c.fate;
+                    vec![
+                        name(c.node),
+                        c.row.to_string(),
+                        f.labelled.to_string(),
+                        share(f.reached, f.labelled),
+                        share(f.above, f.labelled),
+                        share(f.wrong, f.labelled),
+                        share(f.abstained, f.labelled),
+                    ]
+                })
+                .collect(),
+        }
     }
 }
 

@@ -119,7 +119,8 @@ pub fn chart(props: &ChartProps) -> Html {
     }
 }
 
-fn data_table(t: &DataTable) -> Html {
+/// A chart's numbers as an HTML table (its text alternative).
+pub(crate) fn data_table(t: &DataTable) -> Html {
     html! {
         <table>
             <caption>{ t.caption.clone() }</caption>

@@ -218,7 +218,13 @@ pub fn icicle(props: &IcicleProps) -> Html {
             </nav>
             <canvas ref={canvas} class="icicle-canvas" data-testid="icicle" role="img"
                 aria-label={format!("Taxonomy view focused on {}", if tax.id(props.focus).is_empty() { "the whole tree" } else { tax.id(props.focus) })}
+                aria-describedby="icicle-data"
                 onclick={on_click} onmousemove={on_move} onmouseleave={on_leave}></canvas>
+            // The text alternative: the cells' numbers.
+            <details class="chart-data" id="icicle-data" data-testid="icicle-data">
+                <summary>{ "The numbers in this view" }</summary>
+                { super::chart::data_table(&view.table(tax)) }
+            </details>
             <p class="readout" data-testid="icicle-readout" aria-live="polite">{ text }</p>
             <button type="button" class="link chart-export" data-testid="icicle-svg" onclick={on_svg}
                 title="Download this view as SVG (drawn by the same function as the canvas)">{ "Download SVG" }</button>
