@@ -72,7 +72,8 @@ pub fn list_rows(
         let g = batch.label(r);
         let label_ok = filter.label_under.is_none_or(|v| {
             g != NONE
-                && (v == tax.root() || (tax.depth(g) >= tax.depth(v) && tax.ancestor(g, tax.depth(v)) == v))
+                && (v == tax.root()
+                    || (tax.depth(g) >= tax.depth(v) && tax.ancestor(g, tax.depth(v)) == v))
         });
         if label_ok {
             let d = decode_row(tax, batch, settings, &thresholds, r);
@@ -83,7 +84,11 @@ pub fn list_rows(
             {
                 rows.push(RowLine {
                     row: r,
-                    label: if g == NONE { String::new() } else { tax.id(g).to_string() },
+                    label: if g == NONE {
+                        String::new()
+                    } else {
+                        tax.id(g).to_string()
+                    },
                     predicted: shown_node(tax, d.predicted),
                     depth,
                     outcome: d.outcome,
@@ -144,7 +149,12 @@ pub struct RowDetail {
 }
 
 /// Row `r` decoded under `settings` (`None` past the batch's end).
-pub fn row_detail(tax: &Taxonomy, batch: &Batch, settings: &Settings, r: usize) -> Option<RowDetail> {
+pub fn row_detail(
+    tax: &Taxonomy,
+    batch: &Batch,
+    settings: &Settings,
+    r: usize,
+) -> Option<RowDetail> {
     if r >= batch.len() {
         return None;
     }
@@ -160,8 +170,16 @@ pub fn row_detail(tax: &Taxonomy, batch: &Batch, settings: &Settings, r: usize) 
         conditional: p_root,
         cumulative: p_root,
         compared: p_root,
-        threshold: if objectness { settings.thresholds.object } else { f64::NAN },
-        source: if objectness { Source::Depth } else { Source::None },
+        threshold: if objectness {
+            settings.thresholds.object
+        } else {
+            f64::NAN
+        },
+        source: if objectness {
+            Source::Depth
+        } else {
+            Source::None
+        },
         taken: d.predicted.is_some(),
     }];
     let stop = d.predicted.map(|_| d.depth);
@@ -178,7 +196,11 @@ pub fn row_detail(tax: &Taxonomy, batch: &Batch, settings: &Settings, r: usize) 
                 Rule::Conditional => s.conditional,
             },
             threshold: thresholds.get(s.node as usize).copied().unwrap_or(f64::NAN),
-            source: if overridden(s.node) { Source::Node } else { Source::Depth },
+            source: if overridden(s.node) {
+                Source::Node
+            } else {
+                Source::Depth
+            },
             taken: stop.is_some_and(|st| depth <= st),
         });
     }
@@ -192,7 +214,10 @@ pub fn row_detail(tax: &Taxonomy, batch: &Batch, settings: &Settings, r: usize) 
             settings.thresholds.object
         ),
         Some(s) => match steps.get(s + 1) {
-            None => format!("reached a leaf ({}) at depth {s}", shown_node(tax, d.predicted)),
+            None => format!(
+                "reached a leaf ({}) at depth {s}",
+                shown_node(tax, d.predicted)
+            ),
             Some(next) => format!(
                 "stopped at depth {s}: stepping into {} needs {quantity} ≥ {} ({}), it is {:.4}",
                 next.id,
@@ -208,7 +233,11 @@ pub fn row_detail(tax: &Taxonomy, batch: &Batch, settings: &Settings, r: usize) 
     let g = batch.label(r);
     Some(RowDetail {
         row: r,
-        label: if g == NONE { String::new() } else { tax.id(g).to_string() },
+        label: if g == NONE {
+            String::new()
+        } else {
+            tax.id(g).to_string()
+        },
         predicted: shown_node(tax, d.predicted),
         depth: stop,
         outcome: d.outcome,

@@ -50,12 +50,19 @@ fn files(g: &Generated) -> anyhow::Result<Vec<(&'static str, &Path)>> {
         ("--labels", g.labels.as_path()),
         (
             "--objectness",
-            g.objectness.as_deref().context("the batch has objectness")?,
+            g.objectness
+                .as_deref()
+                .context("the batch has objectness")?,
         ),
     ])
 }
 
-fn run_cli(c: &Ctx, command: &str, files: &[(&str, &Path)], args: &[&str]) -> anyhow::Result<Vec<u8>> {
+fn run_cli(
+    c: &Ctx,
+    command: &str,
+    files: &[(&str, &Path)],
+    args: &[&str],
+) -> anyhow::Result<Vec<u8>> {
     let mut cmd = Command::new(&c.cli);
     cmd.arg(command);
     for (flag, path) in files {
@@ -78,7 +85,11 @@ fn run_cli(c: &Ctx, command: &str, files: &[(&str, &Path)], args: &[&str]) -> an
 type NodeLine = (u64, String, u64, u64, u64, u64, u64, u64, String, String);
 
 /// `hedgerow nodes --json` as lines by id ("" for the root).
-fn cli_nodes(c: &Ctx, files: &[(&str, &Path)], args: &[&str]) -> anyhow::Result<BTreeMap<String, NodeLine>> {
+fn cli_nodes(
+    c: &Ctx,
+    files: &[(&str, &Path)],
+    args: &[&str],
+) -> anyhow::Result<BTreeMap<String, NodeLine>> {
     let mut all = args.to_vec();
     all.push("--json");
     let v: Value = serde_json::from_slice(&run_cli(c, "nodes", files, &all)?)?;
@@ -94,13 +105,27 @@ fn cli_nodes(c: &Ctx, files: &[(&str, &Path)], args: &[&str]) -> anyhow::Result<
                     .collect()
             })
             .unwrap_or_default();
-        let precision = r["precision"].as_f64().map(|p| p.to_string()).unwrap_or_default();
+        let precision = r["precision"]
+            .as_f64()
+            .map(|p| p.to_string())
+            .unwrap_or_default();
         let id = r["id"].as_str().unwrap_or("?").to_string();
         out.insert(
             id,
             (
                 n("depth"),
-                format!("{}{}", r["threshold"].as_f64().map(|t| t.to_string()).unwrap_or_default(), if r["overridden"] == json!(true) { " *" } else { "" }),
+                format!(
+                    "{}{}",
+                    r["threshold"]
+                        .as_f64()
+                        .map(|t| t.to_string())
+                        .unwrap_or_default(),
+                    if r["overridden"] == json!(true) {
+                        " *"
+                    } else {
+                        ""
+                    }
+                ),
                 n("stops"),
                 n("correct"),
                 n("unverifiable"),
@@ -133,13 +158,28 @@ async fn page_nodes(b: &Browser) -> anyhow::Result<BTreeMap<String, NodeLine>> {
         let n = |i: usize| cell(i).trim().parse::<u64>().unwrap_or(u64::MAX);
         out.insert(
             cell(0),
-            (n(4), cell(5), n(6), n(7), n(8), n(9), n(10), n(11), cell(14), cell(13)),
+            (
+                n(4),
+                cell(5),
+                n(6),
+                n(7),
+                n(8),
+                n(9),
+                n(10),
+                n(11),
+                cell(14),
+                cell(13),
+            ),
         );
     }
     Ok(out)
 }
 
-async fn expect_table(b: &Browser, want: &BTreeMap<String, NodeLine>, what: &str) -> anyhow::Result<()> {
+async fn expect_table(
+    b: &Browser,
+    want: &BTreeMap<String, NodeLine>,
+    what: &str,
+) -> anyhow::Result<()> {
     // The table follows the settings in the same render as the headline; read it until it
     // agrees or a few tries pass.
     let mut got = BTreeMap::new();
@@ -150,7 +190,12 @@ async fn expect_table(b: &Browser, want: &BTreeMap<String, NodeLine>, what: &str
         }
         tokio::time::sleep(std::time::Duration::from_millis(100)).await;
     }
-    ensure!(got.len() == want.len(), "{what}: the page lists {} nodes, the CLI {}", got.len(), want.len());
+    ensure!(
+        got.len() == want.len(),
+        "{what}: the page lists {} nodes, the CLI {}",
+        got.len(),
+        want.len()
+    );
     for (id, w) in want {
         let g = got.get(id);
         ensure!(g == Some(w), "{what}: node {id:?}: page {g:?}, CLI {w:?}");
@@ -171,7 +216,11 @@ async fn table_equals_cli(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     let f = files(&g)?;
     load(b, c, &f).await?;
     let want = cli_nodes(c, &f, &[])?;
-    ensure!(want.len() == g.nodes + 1, "the CLI lists {} records", want.len());
+    ensure!(
+        want.len() == g.nodes + 1,
+        "the CLI lists {} records",
+        want.len()
+    );
     expect_table(b, &want, "at the defaults").await?;
 
     // A depth moved, then one node given its own threshold from the table's editor.
@@ -189,27 +238,49 @@ async fn table_equals_cli(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     .await?;
     b.set_value("node-threshold", "0.9").await?;
     let flag = format!("{node}=0.9");
-    let args = ["--thresholds", "0.5,0.3,0.5,0.5,0.5", "--node-threshold", flag.as_str()];
+    let args = [
+        "--thresholds",
+        "0.5,0.3,0.5,0.5,0.5",
+        "--node-threshold",
+        flag.as_str(),
+    ];
     let headline = evaluate_files(c, &f, &args)?;
     expect_headline(b, &headline, "depth 2 at 0.3, one node at 0.9").await?;
     let want = cli_nodes(c, &f, &args)?;
-    ensure!(want.get(&node).is_some_and(|l| l.1 == "0.9 *"), "the CLI's override");
+    ensure!(
+        want.get(&node).is_some_and(|l| l.1 == "0.9 *"),
+        "the CLI's override"
+    );
     expect_table(b, &want, "depth 2 at 0.3, one node at 0.9").await?;
 
     // Sorting by wrong (a click on the header) puts the most wrong first.
-    b.eval("document.querySelector('[data-testid=sort-8]').click();", vec![]).await?;
+    b.eval(
+        "document.querySelector('[data-testid=sort-8]').click();",
+        vec![],
+    )
+    .await?;
     let first = b
-        .eval("return document.querySelector('[data-testid=node-table] tbody tr').dataset.node;", vec![])
+        .eval(
+            "return document.querySelector('[data-testid=node-table] tbody tr').dataset.node;",
+            vec![],
+        )
         .await?;
     let most = want.iter().max_by_key(|(_, l)| l.5).map(|(_, l)| l.5);
     let first_wrong = want.get(first.as_str().unwrap_or("?")).map(|l| l.5);
-    ensure!(first_wrong == most, "sorted by wrong: the first row has {first_wrong:?}, the most is {most:?}");
+    ensure!(
+        first_wrong == most,
+        "sorted by wrong: the first row has {first_wrong:?}, the most is {most:?}"
+    );
     let sort = b
         .eval("return document.querySelector('[data-testid=sort-8]').closest('th').getAttribute('aria-sort');", vec![])
         .await?;
     ensure!(sort == json!("descending"), "aria-sort {sort}");
 
-    b.eval("document.querySelector('[data-testid=node-table]').scrollIntoView({block: 'start'});", vec![]).await?;
+    b.eval(
+        "document.querySelector('[data-testid=node-table]').scrollIntoView({block: 'start'});",
+        vec![],
+    )
+    .await?;
     screenshot(b, c, "nodes-table.png").await?;
     // Clearing the node's threshold puts the CLI's default numbers back.
     b.click("node-threshold-clear").await?;
@@ -251,7 +322,10 @@ async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
         .filter_map(|r| r["row"].as_u64().map(|v| v as usize))
         .take(listed.len())
         .collect();
-    ensure!(!listed.is_empty() && listed == want, "wrong rows: page {listed:?}, CLI {want:?}");
+    ensure!(
+        !listed.is_empty() && listed == want,
+        "wrong rows: page {listed:?}, CLI {want:?}"
+    );
 
     for &r in listed.iter().take(3) {
         b.click(&format!("inspect-row-{r}")).await?;
@@ -269,7 +343,11 @@ async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
                         .map(|s| {
                             let (id, p, q) = match s {
                                 Value::Array(x) => (x[0].clone(), x[1].clone(), x[2].clone()),
-                                _ => (s["id"].clone(), s["conditional"].clone(), s["cumulative"].clone()),
+                                _ => (
+                                    s["id"].clone(),
+                                    s["conditional"].clone(),
+                                    s["cumulative"].clone(),
+                                ),
                             };
                             (
                                 id.as_str().unwrap_or("?").to_string(),
@@ -282,7 +360,10 @@ async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
                 .unwrap_or_default()
         };
         let (page, want) = (as_steps(&steps), as_steps(&cli["path"]));
-        ensure!(!want.is_empty() && page == want, "row {r}: page path {page:?}, CLI {want:?}");
+        ensure!(
+            !want.is_empty() && page == want,
+            "row {r}: page path {page:?}, CLI {want:?}"
+        );
         let why = b.text("row-why").await?;
         let depth = cli["depth"].as_u64();
         ensure!(
@@ -290,11 +371,19 @@ async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
             "row {r}: {why:?}, the CLI stops at {depth:?}"
         );
     }
-    b.eval("document.querySelector('[data-testid=row-detail]').scrollIntoView({block: 'center'});", vec![]).await?;
+    b.eval(
+        "document.querySelector('[data-testid=row-detail]').scrollIntoView({block: 'center'});",
+        vec![],
+    )
+    .await?;
     screenshot(b, c, "nodes-inspector.png").await?;
 
     // The taxonomy view: a click in the second band focuses a depth-1 node.
-    b.eval("document.querySelector('[data-testid=icicle]').scrollIntoView({block: 'center'});", vec![]).await?;
+    b.eval(
+        "document.querySelector('[data-testid=icicle]').scrollIntoView({block: 'center'});",
+        vec![],
+    )
+    .await?;
     screenshot(b, c, "nodes-icicle.png").await?;
     b.eval(
         r#"const c = document.querySelector('[data-testid=icicle]');
@@ -304,9 +393,15 @@ async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     )
     .await?;
     let crumbs = b.text("icicle-breadcrumb").await?;
-    ensure!(crumbs.contains("whole tree") && crumbs.trim() != "whole tree", "after a click the breadcrumb is {crumbs:?}");
+    ensure!(
+        crumbs.contains("whole tree") && crumbs.trim() != "whole tree",
+        "after a click the breadcrumb is {crumbs:?}"
+    );
     let editor = b.find_all("node-editor").await?;
-    ensure!(!editor.is_empty(), "the click selects the node (its threshold editor shows)");
+    ensure!(
+        !editor.is_empty(),
+        "the click selects the node (its threshold editor shows)"
+    );
     screenshot(b, c, "nodes-icicle-focused.png").await?;
     b.click("icicle-whole").await?;
     let crumbs = b.text("icicle-breadcrumb").await?;

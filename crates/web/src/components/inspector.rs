@@ -120,9 +120,13 @@ pub fn inspector(props: &InspectorProps) -> Html {
             }
         })
     };
-    let selected_id = props
-        .selected
-        .map(|v| if v == tax.root() { "(root)".to_string() } else { tax.id(v).to_string() });
+    let selected_id = props.selected.map(|v| {
+        if v == tax.root() {
+            "(root)".to_string()
+        } else {
+            tax.id(v).to_string()
+        }
+    });
 
     let lines = page.rows.iter().map(|l| {
         let r = l.row;
