@@ -349,8 +349,7 @@ pub fn report_csv(tax: &Taxonomy, report: &NodeReport) -> Result<Vec<u8>, csv::E
     for r in std::iter::once(&report.root).chain(&report.nodes) {
         w.write_record(csv_fields(tax, r))?;
     }
-    w.into_inner()
-        .map_err(|e| csv::Error::from(e.into_error()))
+    w.into_inner().map_err(|e| csv::Error::from(e.into_error()))
 }
 
 #[cfg(test)]
