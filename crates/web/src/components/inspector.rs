@@ -162,10 +162,11 @@ pub fn inspector(props: &InspectorProps) -> Html {
                 (_, 0) => html! { <td class="runner-up">{ "–" }</td> },
                 (Some(RunnerUpColumn::Shown(cells)), d) => match cells.get(d - 1) {
                     Some(Some(c)) => {
-                        let shown = if c.name.is_empty() || c.name == c.id { c.id.clone() } else { format!("{} ({})", c.id, c.name) };
+                        // The name (often long) as the cell's title, so the table stays narrow.
+                        let title = if c.name.is_empty() { c.id.clone() } else { c.name.clone() };
                         html! {
-                            <td class="runner-up" data-node={c.id.clone()} data-value={c.conditional.to_string()}>
-                                { shown }<span class="num">{ format!(" {}", num(c.conditional)) }</span>
+                            <td class="runner-up" data-node={c.id.clone()} data-value={c.conditional.to_string()} {title}>
+                                { format!("{} {}", c.id, num(c.conditional)) }
                             </td>
                         }
                     }
@@ -197,7 +198,7 @@ pub fn inspector(props: &InspectorProps) -> Html {
                         <th scope="col">{ "depth" }</th><th scope="col">{ "node" }</th>
                         <th scope="col">{ "p(node | parent)" }</th><th scope="col">{ "P(node)" }</th>
                         <th scope="col">{ "threshold" }</th><th scope="col">{ "from" }</th>
-                        <th scope="col">{ "runner-up: p(sibling | parent)" }</th><th scope="col">{ "descent" }</th>
+                        <th scope="col" title="the most probable other child of the same parent, with p(sibling | parent)">{ "runner-up, p(· | parent)" }</th><th scope="col">{ "descent" }</th>
                     </tr></thead>
                     <tbody>{ for steps }</tbody>
                 </table>
