@@ -3,7 +3,8 @@
 //! DOM equals `hedgerow nodes --json` on the same files, before and after a depth threshold and
 //! a node's own threshold change (set from the table's editor); the row inspector's path for a
 //! few rows equals `hedgerow decode --format jsonl`, and its runner-up siblings equal a softmax
-//! computed here from the `.npy`; the taxonomy view focuses a subtree on a
+//! computed here from the `.npy` (on the demo's embedded logits too; a compressed bundle shows
+//! why there are none); the taxonomy view focuses a subtree on a
 //! click and goes back. Screenshots: `target/e2e/nodes-*.png`.
 
 use std::collections::BTreeMap;
@@ -26,6 +27,10 @@ pub fn tests() -> Vec<Test> {
         Test::new(
             "where it fails: the inspector's paths equal hedgerow decode, its runner-ups a softmax of the .npy; the taxonomy view focuses and goes back",
             |b, c| Box::pin(inspector_and_view(b, c)),
+        ),
+        Test::new(
+            "where it fails: the inspector's runner-ups on the demo's embedded float16 logits equal a softmax of the .npy; a compressed bundle says why there are none",
+            |b, c| Box::pin(runner_ups_demo_and_bundle(b, c)),
         ),
     ]
 }
@@ -364,6 +369,76 @@ fn reference_runner_ups(
         )));
         v = children[order[0]];
     }
+}
+
+/// Open row `r` in the inspector (listed on the first page) and compare its runner-ups.
+async fn expect_runner_ups(
+    b: &Browser,
+    tax: &hedgerow_core::Taxonomy,
+    npy: &[u8],
+    r: usize,
+) -> anyhow::Result<usize> {
+    b.click(&format!("inspect-row-{r}")).await?;
+    let page = page_runner_ups(b, r).await?;
+    let want = reference_runner_ups(tax, npy, r)?;
+    ensure!(
+        page == want,
+        "row {r}: page runner-ups {page:?}, from the .npy {want:?}"
+    );
+    Ok(want.iter().flatten().count())
+}
+
+async fn runner_ups_demo_and_bundle(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    // The demo loads at start; its logits are the page's embedded bytes.
+    fresh_demo(b, c, &c.http_url).await?;
+    let demo = crate::root().join("demo-data");
+    let tax =
+        hedgerow_core::Taxonomy::parse(&std::fs::read(demo.join("taxonomy.csv"))?, "taxonomy.csv")
+            .map_err(|e| anyhow::anyhow!("{e}"))?;
+    let logits = std::fs::read(demo.join("logits.npy"))?;
+    let mut compared = 0;
+    for r in [0, 3, 11] {
+        compared += expect_runner_ups(b, &tax, &logits, r).await?;
+    }
+    ensure!(compared > 0, "no runner-up was compared");
+
+    // np.savez_compressed-style bundle: its rows have no fixed place.
+    let g = wordnet::generate(
+        &c.out_dir.join("nodes-bundle"),
+        &Options {
+            rows: 300,
+            seed: 11,
+            objectness: true,
+            bundle: true,
+            ..Options::default()
+        },
+    )
+    .context("generating the WordNet bundle")?;
+    let bundle = g.bundle.as_deref().context("the bundle")?;
+    let f = [("--taxonomy", g.taxonomy.as_path()), ("--logits", bundle)];
+    load(b, c, &f).await?;
+    b.click("inspect-row-0").await?;
+    let mut note = String::new();
+    for _ in 0..100 {
+        note = b.text("runner-up-note").await.unwrap_or_default();
+        if !note.is_empty() {
+            break;
+        }
+        tokio::time::sleep(std::time::Duration::from_millis(50)).await;
+    }
+    ensure!(
+        note.contains(
+            "Runner-ups need the logits as a C-order .npy or an uncompressed .npz member"
+        ) && note.contains("compressed"),
+        "the compressed bundle's note: {note:?}"
+    );
+    b.eval(
+        "document.querySelector('[data-testid=runner-up-note]').scrollIntoView({block: 'center'});",
+        vec![],
+    )
+    .await?;
+    screenshot(b, c, "nodes-runner-up-note.png").await?;
+    Ok(())
 }
 
 async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {

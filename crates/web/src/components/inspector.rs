@@ -54,6 +54,15 @@ fn num(v: f64) -> String {
     }
 }
 
+/// Why the runner-up column is empty, as a sentence: the engine's reason starts with
+/// "runner-ups need …"; a file's own problem starts with its name.
+fn note_text(why: &str) -> String {
+    match why.strip_prefix("runner-ups") {
+        Some(rest) => format!("Runner-ups{rest}."),
+        None => format!("No runner-ups: {why}"),
+    }
+}
+
 #[function_component(Inspector)]
 pub fn inspector(props: &InspectorProps) -> Html {
     let outcome = use_state(|| None::<Outcome>);
@@ -203,7 +212,7 @@ pub fn inspector(props: &InspectorProps) -> Html {
                     <tbody>{ for steps }</tbody>
                 </table>
                 if let Some(RunnerUpColumn::Note(why)) = &column {
-                    <p class="help" data-testid="runner-up-note">{ format!("No runner-ups: {why}") }</p>
+                    <p class="help" data-testid="runner-up-note">{ note_text(why) }</p>
                 }
                 <p class="help">{ "The greedy path to its leaf: the rule compares P(node) (cumulative) or p(node | parent) (conditional) with the threshold. The runner-up is the most probable other child of the same parent, read from this row's logits when it is opened." }</p>
             </div>
