@@ -171,9 +171,23 @@ pub fn row_range(
     if r >= rows {
         return Err(NoRowRange::PastEnd { row: r, rows });
     }
-    let row_bytes = header.shape.get(1).copied().unwrap_or(1) * header.dtype.scalar.size() as u64;
-    let start = npy_start + header.data_offset as u64 + r * row_bytes;
-    Ok((start, start + row_bytes))
+    // The header was checked against the file's length when it was read; checked arithmetic
+    // all the same, so a header's claim can never wrap around.
+    let row_bytes = header
+        .shape
+        .get(1)
+        .copied()
+        .unwrap_or(1)
+        .checked_mul(header.dtype.scalar.size() as u64);
+    let start = row_bytes.and_then(|b| {
+        npy_start
+            .checked_add(header.data_offset as u64)?
+            .checked_add(r.checked_mul(b)?)
+    });
+    match (start, row_bytes) {
+        (Some(start), Some(b)) if start.checked_add(b).is_some() => Ok((start, start + b)),
+        _ => Err(NoRowRange::PastEnd { row: r, rows }),
+    }
 }
 
 #[cfg(test)]
