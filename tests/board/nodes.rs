@@ -5,10 +5,10 @@
 use hedgerow_board::charts::icicle::FATE_LABELS;
 use hedgerow_board::charts::{draw_icicle, icicle_view};
 use hedgerow_board::nodes::{csv, table, Column, Fate, TableQuery};
-use plotters::prelude::*;
 use hedgerow_board::state::{Action, Board};
 use hedgerow_core::nodes::report_csv;
 use hedgerow_core::{node_report, Outcome, Rule};
+use plotters::prelude::*;
 
 use super::loaded;
 
@@ -36,7 +36,11 @@ fn the_report_is_the_cores_once_loaded() {
     check_report(&b, "loaded");
     let root = &b.node_report.as_deref().expect("report").root;
     let rows = b.active.as_ref().expect("active").batch.len() as u64;
-    assert_eq!(root.labelled, rows - unlabelled(&b), "every labelled row is under the root");
+    assert_eq!(
+        root.labelled,
+        rows - unlabelled(&b),
+        "every labelled row is under the root"
+    );
 }
 
 fn unlabelled(b: &Board) -> u64 {
@@ -101,12 +105,20 @@ fn a_node_threshold_is_set_and_cleared_by_id() {
     let rec = &b.node_report.as_deref().expect("report").nodes[glass as usize];
     assert!(rec.overridden && rec.threshold == 0.9);
     // Out of range, or an id the taxonomy lacks: nothing changes.
-    for (id, value) in [("glass", Some(1.5)), ("glass", Some(f64::NAN)), ("nope", Some(0.2))] {
+    for (id, value) in [
+        ("glass", Some(1.5)),
+        ("glass", Some(f64::NAN)),
+        ("nope", Some(0.2)),
+    ] {
         b.apply(Action::SetNodeThreshold {
             id: id.into(),
             value,
         });
-        assert_eq!(b.settings.thresholds.nodes, vec![(glass, 0.9)], "{id} {value:?}");
+        assert_eq!(
+            b.settings.thresholds.nodes,
+            vec![(glass, 0.9)],
+            "{id} {value:?}"
+        );
     }
     b.apply(Action::SetNodeThreshold {
         id: "glass".into(),
@@ -123,11 +135,18 @@ fn the_csv_is_the_command_lines() {
     let a = b.active.as_ref().expect("active");
     let report = b.node_report.as_deref().expect("report");
     let text = csv(&a.taxonomy, report).expect("csv");
-    let want = report_csv(&a.taxonomy, &node_report(&a.taxonomy, &a.batch, &b.settings))
-        .expect("core csv");
+    let want = report_csv(
+        &a.taxonomy,
+        &node_report(&a.taxonomy, &a.batch, &b.settings),
+    )
+    .expect("core csv");
     assert_eq!(text.as_bytes(), want.as_slice());
     assert!(text.starts_with("id,name,depth,threshold,overridden,stops,correct,"));
-    assert_eq!(text.lines().count(), a.taxonomy.len() + 2, "header, root, nodes");
+    assert_eq!(
+        text.lines().count(),
+        a.taxonomy.len() + 2,
+        "header, root, nodes"
+    );
 }
 
 #[test]
@@ -155,7 +174,11 @@ fn the_table_sorts_filters_and_pages() {
     let reversed = table(&tax, report, &by_wrong.clicked(Column::Wrong));
     assert!(reversed.rows.windows(2).all(|w| w[0].wrong <= w[1].wrong));
 
-    let by_precision = table(&tax, report, &TableQuery::default().clicked(Column::Precision));
+    let by_precision = table(
+        &tax,
+        report,
+        &TableQuery::default().clicked(Column::Precision),
+    );
     let p: Vec<f64> = by_precision
         .rows
         .iter()
@@ -250,7 +273,11 @@ fn the_icicle_lays_out_and_draws_its_cells() {
             .iter()
             .find(|p| p.node == tax.parent(c.node) || (c.row == 1 && p.node == tax.root()))
             .expect("parent drawn");
-        assert!(c.x0 >= parent.x0 - 1e-9 && c.x1 <= parent.x1 + 1e-9, "{}", c.label);
+        assert!(
+            c.x0 >= parent.x0 - 1e-9 && c.x1 <= parent.x1 + 1e-9,
+            "{}",
+            c.label
+        );
         assert_eq!(c.row, parent.row + 1);
     }
     // Focus a subtree: it takes the whole width.
@@ -258,7 +285,10 @@ fn the_icicle_lays_out_and_draws_its_cells() {
     let focused = icicle_view(tax, fates, glass);
     assert_eq!(focused.cells[0].node, glass);
     assert_eq!((focused.cells[0].x0, focused.cells[0].x1), (0.0, 1.0));
-    assert!(focused.cells.iter().all(|c| c.node == glass || tax.path(c.node).contains(&glass)));
+    assert!(focused
+        .cells
+        .iter()
+        .all(|c| c.node == glass || tax.path(c.node).contains(&glass)));
 
     // Drawn to SVG: the legend and every cell wide enough to be drawn.
     let mut svg = String::new();
@@ -272,7 +302,11 @@ fn the_icicle_lays_out_and_draws_its_cells() {
     }
     assert!(svg.contains("\nglass\n"), "the focused cell's label");
     let rects = svg.matches("<rect").count();
-    assert!(rects > focused.cells.len(), "{rects} rects for {} cells", focused.cells.len());
+    assert!(
+        rects > focused.cells.len(),
+        "{rects} rects for {} cells",
+        focused.cells.len()
+    );
     // The teal of "reached" fills part of the focused cell.
     assert!(svg.to_uppercase().contains("#1F7A6D"));
     // A click in the middle of the top band lands on the focused node.
@@ -314,8 +348,18 @@ fn the_inspector_lists_filtered_rows_and_walks_one_path() {
         .collect();
     let got: Vec<usize> = page.rows.iter().map(|l| l.row).collect();
     assert_eq!(got, want[..15]);
-    let next = list_rows(tax, batch, &b.settings, &filter, page.next.expect("more"), 5);
-    assert_eq!(next.rows.iter().map(|l| l.row).collect::<Vec<_>>(), want[15..20]);
+    let next = list_rows(
+        tax,
+        batch,
+        &b.settings,
+        &filter,
+        page.next.expect("more"),
+        5,
+    );
+    assert_eq!(
+        next.rows.iter().map(|l| l.row).collect::<Vec<_>>(),
+        want[15..20]
+    );
 
     // One row's path: the core's steps, thresholds from the depth or the node.
     for &r in &want[..5] {
@@ -323,14 +367,48 @@ fn the_inspector_lists_filtered_rows_and_walks_one_path() {
         let core = hedgerow_core::decode_row(tax, batch, &b.settings, &thresholds, r);
         assert_eq!(d.steps.len(), core.path.len() + 1);
         for (s, c) in d.steps[1..].iter().zip(&core.path) {
-            assert_eq!((s.node, s.conditional, s.cumulative), (c.node, c.conditional, c.cumulative));
+            assert_eq!(
+                (s.node, s.conditional, s.cumulative),
+                (c.node, c.conditional, c.cumulative)
+            );
             let own = s.node == glass;
             assert_eq!(s.source, if own { Source::Node } else { Source::Depth });
             assert_eq!(s.threshold, thresholds[s.node as usize]);
             assert_eq!(s.taken, core.predicted.is_some() && s.depth <= core.depth);
         }
         assert_eq!(d.outcome, Outcome::Wrong);
-        assert!(d.why.starts_with("stopped at depth") || d.why.starts_with("reached a leaf"), "{}", d.why);
+        assert!(
+            d.why.starts_with("stopped at depth") || d.why.starts_with("reached a leaf"),
+            "{}",
+            d.why
+        );
     }
     assert!(row_detail(tax, batch, &b.settings, batch.len()).is_none());
+}
+
+#[test]
+fn the_curve_csv_is_the_command_lines() {
+    let mut b = loaded();
+    b.apply(Action::SetNodeThreshold {
+        id: "glass".into(),
+        value: Some(0.9),
+    });
+    let a = b.active.as_ref().expect("active");
+    let text = hedgerow_board::nodes::curve_csv(&b).expect("csv");
+    let points = hedgerow_core::exact_curve_for(&a.taxonomy, &a.batch, &b.settings);
+    let want = hedgerow_core::curve::curve_csv(&points).expect("core csv");
+    assert_eq!(text.as_bytes(), want.as_slice());
+    assert!(text.starts_with("threshold,predictions,correct,unverifiable,wrong,precision,"));
+    assert_eq!(text.lines().count(), points.len() + 1);
+}
+
+#[test]
+fn a_chart_exports_as_svg_through_its_drawing_function() {
+    let b = loaded();
+    let view = b.stop_view();
+    let svg = hedgerow_board::charts::svg_of((640, 360), |area| {
+        hedgerow_board::charts::draw_stops(area, &view)
+    })
+    .expect("svg");
+    assert!(svg.starts_with("<svg") && svg.contains("depth where descent stops"));
 }

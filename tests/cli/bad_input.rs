@@ -3,7 +3,7 @@
 //! was expected, never a panic.
 
 use crate::catalogue;
-use crate::harness::{hedgerow, npy_f32, objectness, Scratch, INPUT, LABELS, TAXONOMY};
+use crate::harness::{hedgerow, npy_f32, objectness, Scratch, INPUT, TAXONOMY};
 
 /// The command line's flag for each slot of the catalogue.
 const FLAGS: [(&str, &str); 5] = [

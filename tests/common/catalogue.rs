@@ -3,6 +3,10 @@
 //! `tests/bad-input/base/` and a `case.json` saying which slot each file goes to, any extra
 //! command-line flags and the message fragments each interface must show.
 
+// Each test binary reads the parts for its interface (the page has no flags, the command line
+// no page slot).
+#![allow(dead_code)]
+
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 

@@ -14,6 +14,7 @@ mod properties;
 mod robustness;
 mod rules;
 mod suggest;
+mod tally;
 mod worked;
 #[path = "../common/zip.rs"]
 mod zip;

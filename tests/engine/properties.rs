@@ -232,7 +232,8 @@ impl Tree {
                 } else if total <= 1.0 {
                     1.0
                 } else {
-                    1.0 - (leaves[v] as f64).ln() / total.ln()
+                    // libm's log, as the engine takes it (the same bits on every target).
+                    1.0 - libm::log(leaves[v] as f64) / libm::log(total)
                 }
             })
             .collect();
@@ -283,7 +284,8 @@ fn reference_path(tree: &Tree, temps: &[f64], logits: &[f32]) -> (usize, Vec<f32
         } else {
             let z: Vec<f64> = ch.iter().map(|&c| logits[c] as f64 / t).collect();
             let max = z.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-            let e: Vec<f64> = z.iter().map(|z| (z - max).exp()).collect();
+            // libm's exp, as the engine takes it (the same bits on every target).
+            let e: Vec<f64> = z.iter().map(|&z| libm::exp(z - max)).collect();
             let sum: f64 = e.iter().sum();
             let mut best = (0, f64::NEG_INFINITY);
             for (i, e) in e.iter().enumerate() {

@@ -10,8 +10,13 @@
 //! gaps and memory) to `target/e2e/figures.txt`. Generated batches are kept (and reused) under
 //! `target/e2e/batch-*`.
 //!
+//! `a11y.rs` runs axe-core (npm, pinned in `xtask/e2e-assets/package-lock.json`, installed
+//! with `npm ci` when missing) on every page state; `agree.rs` compares random batches scored natively and in wasm.
+//!
 //! Add tests in a module under `e2e/` and list them in [`all_tests`].
 
+mod a11y;
+mod agree;
 mod big;
 mod harness;
 mod journey;
@@ -97,6 +102,8 @@ fn all_tests() -> Vec<Test> {
     tests.extend(nodes::tests());
     tests.extend(privacy::tests());
     tests.extend(suggest::tests());
+    tests.extend(a11y::tests());
+    tests.extend(agree::tests());
     tests.extend(big::tests());
     tests
 }

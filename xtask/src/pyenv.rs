@@ -1,6 +1,7 @@
 //! The Python side of `cargo xtask test`: a virtual environment at
-//! `<root>/.venv` with `tests/python/requirements.txt` installed, and the two
-//! external checks (`check_cli.py`, `check_hiclass.py`) run with it.
+//! `<root>/.venv` with `tests/python/requirements.txt` installed, the external
+//! checks (`check_cli.py`, `scipy_intervals.py`, `check_hiclass.py`, `peer.py`) run with it, and the
+//! `hedgerow` package (crates/python) built into it and its pytest suite run.
 
 use std::fs;
 use std::io::ErrorKind;
@@ -14,8 +15,9 @@ const REQUIREMENTS: &str = "tests/python/requirements.txt";
 /// A copy of the requirements last installed into the venv.
 const STAMP: &str = "hedgerow-requirements.txt";
 /// The check scripts, run in this order.
-const CHECKS: [&str; 3] = [
+const CHECKS: [&str; 4] = [
     "tests/python/check_cli.py",
+    "tests/python/scipy_intervals.py",
     "tests/python/check_hiclass.py",
     "tests/python/peer.py",
 ];
@@ -153,6 +155,63 @@ pub fn run_checks(root: &Path, hedgerow_bin: &Path) -> anyhow::Result<()> {
     }
     if !failed.is_empty() {
         bail!("Python checks failed: {}", failed.join(", "));
+    }
+    Ok(())
+}
+
+/// The package's sources and tests, relative to the workspace root.
+const PACKAGE: &str = "crates/python";
+const PACKAGE_TESTS: &str = "crates/python/tests";
+
+/// The venv's scripts first on PATH: maturin's PEP 517 hook runs `maturin` by name.
+fn venv_path(python: &Path) -> anyhow::Result<std::ffi::OsString> {
+    let bin = python.parent().context("the venv's python has no folder")?;
+    let mut dirs = vec![bin.to_path_buf()];
+    if let Some(path) = std::env::var_os("PATH") {
+        dirs.extend(std::env::split_paths(&path));
+    }
+    std::env::join_paths(dirs).context("joining PATH")
+}
+
+/// Build the `hedgerow` package (maturin, the `python` profile: an abi3 wheel) and install it
+/// into the venv, then run its pytest suite against `hedgerow_bin`. The build uses the venv's
+/// pinned maturin without build isolation, so it downloads nothing beyond the crates cargo
+/// fetches.
+pub fn run_package(root: &Path, hedgerow_bin: &Path) -> anyhow::Result<()> {
+    let python = ensure_venv(root)?;
+    let path = venv_path(&python)?;
+    eprintln!("pyenv: building and installing {PACKAGE} into the venv");
+    let status = Command::new(&python)
+        .args([
+            "-m",
+            "pip",
+            "install",
+            "--disable-pip-version-check",
+            "--quiet",
+            "--no-build-isolation",
+            "--no-deps",
+            "--force-reinstall",
+        ])
+        .arg(root.join(PACKAGE))
+        .current_dir(root)
+        .env("PATH", &path)
+        .status()
+        .with_context(|| format!("running {} -m pip install {PACKAGE}", python.display()))?;
+    if !status.success() {
+        bail!("pip install {PACKAGE} failed ({status})");
+    }
+    eprintln!("pyenv: running pytest {PACKAGE_TESTS}");
+    let status = Command::new(&python)
+        .args(["-m", "pytest", "-q", "-p", "no:cacheprovider"])
+        .arg(root.join(PACKAGE_TESTS))
+        .current_dir(root)
+        .env("PATH", &path)
+        .env("HEDGEROW_BIN", hedgerow_bin)
+        .env("PYTHONDONTWRITEBYTECODE", "1")
+        .status()
+        .with_context(|| format!("running {} -m pytest", python.display()))?;
+    if !status.success() {
+        bail!("pytest {PACKAGE_TESTS} failed ({status})");
     }
     Ok(())
 }

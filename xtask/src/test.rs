@@ -3,8 +3,9 @@
 //!
 //! Steps: cargo tests of the host crates (which also replay the fuzz corpus); the engine built
 //! for wasm32; a short coverage-guided run of every fuzz target ("fuzz smoke", a few seconds
-//! each); the Python reference checks against the CLI on the demo data; the page's end-to-end
-//! tests in headless Chromium. `--no-fuzz`, `--no-python` and `--no-browser` skip those steps
+//! each); the Python reference checks against the CLI on the demo data; the `hedgerow` Python
+//! package built into the venv and its pytest suite (against the CLI, and on Dask); the page's
+//! end-to-end tests in headless Chromium. `--no-fuzz`, `--no-python` and `--no-browser` skip those steps
 //! for a quick local run.
 
 use std::path::Path;
@@ -58,6 +59,10 @@ pub fn run(args: &[String]) -> anyhow::Result<()> {
         step(
             "external checks: numpy reference and hiclass (Python venv)",
             &mut || pyenv::run_checks(&root, &bin),
+        )?;
+        step(
+            "Python package: build crates/python into the venv, pytest (CLI equality, Dask)",
+            &mut || pyenv::run_package(&root, &bin),
         )?;
     }
     if !skip("--no-browser") {

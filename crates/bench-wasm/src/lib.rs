@@ -5,7 +5,8 @@
 //! same sequence as `hedgerow bench`), and the exact curve. Results are JSON strings.
 //!
 //! Built for wasm32-unknown-unknown and driven by `cargo xtask bench-wasm` (see
-//! `xtask/src/bench/wasm.rs` and the page in `crates/bench-wasm/www/`).
+//! `xtask/src/bench/wasm.rs` and the page in `crates/bench-wasm/www/`). `agree` runs the random
+//! batches of `hedgerow-agree` for the native-equals-wasm check in `cargo xtask e2e`.
 
 use hedgerow_core::{
     evaluate, exact_curve, Batch, Labels, LogitsReader, Objectness, Policy, Rule, Settings,
@@ -268,4 +269,27 @@ impl Session {
         })
         .to_string())
     }
+}
+
+/// `batches` random batches from `seed` through the engine, as `hedgerow_agree::run` natively:
+/// the digest of every number scored, as JSON (`cargo xtask e2e` compares it with native).
+#[wasm_bindgen]
+pub fn agree(seed: u64, batches: u32) -> Result<String, JsError> {
+    hedgerow_agree::run(seed, u64::from(batches))
+        .map(|d| d.to_json())
+        .map_err(js_err)
+}
+
+/// [`hedgerow_agree::per_batch`], as a JSON array.
+#[wasm_bindgen]
+pub fn agree_per_batch(seed: u64, batches: u32) -> Result<String, JsError> {
+    hedgerow_agree::per_batch(seed, u64::from(batches))
+        .map(|v| serde_json::json!(v).to_string())
+        .map_err(js_err)
+}
+
+/// [`hedgerow_agree::dump`].
+#[wasm_bindgen]
+pub fn agree_dump(seed: u64, index: u32) -> Result<String, JsError> {
+    hedgerow_agree::dump(seed, u64::from(index)).map_err(js_err)
 }

@@ -15,18 +15,39 @@
 //! their own fixed per-character measure. The legends are drawn by hand (not plotters' series
 //! labels, which measure through the font layer instead of the backend).
 //!
-//! The caller calls `present()`.
+//! The caller calls `present()`. [`TradeoffView::tables`] and [`StopView::tables`] give the
+//! same numbers as tables, the charts' text alternative.
 
 mod common;
 pub mod icicle;
 mod stops;
+mod table;
 mod tradeoff;
 
 use plotters::style::RGBColor;
 
 pub use icicle::{draw_icicle, icicle_view, IcicleCell, IcicleView};
 pub use stops::draw_stops;
+pub use table::{DataTable, MAX_ROWS};
 pub use tradeoff::draw_tradeoff;
+
+/// A chart as SVG text, `w` × `h` pixels: the same drawing function on plotters' SVG backend
+/// (the page's "Download SVG"). `None` if drawing failed.
+pub fn svg_of(
+    (w, h): (u32, u32),
+    draw: impl FnOnce(
+        &plotters::drawing::DrawingArea<plotters::prelude::SVGBackend, plotters::coord::Shift>,
+    ) -> Result<(), plotters::drawing::DrawingAreaErrorKind<std::io::Error>>,
+) -> Option<String> {
+    use plotters::prelude::*;
+    let mut out = String::new();
+    {
+        let area = SVGBackend::with_string(&mut out, (w, h)).into_drawing_area();
+        draw(&area).ok()?;
+        area.present().ok()?;
+    }
+    Some(out)
+}
 
 /// Texts the charts draw, for callers (and tests) that look for them.
 pub mod labels {

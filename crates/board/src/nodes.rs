@@ -92,8 +92,7 @@ impl NodeTracker {
             let s = hedgerow_core::eval::stop_depth(tax, batch, settings.rule, &thresholds, r);
             let new = s.map(|s| s as u8);
             if new != *slot {
-                self.counts
-                    .shift(tax, batch, r, slot.map(usize::from), s);
+                self.counts.shift(tax, batch, r, slot.map(usize::from), s);
                 if slot.is_none() != new.is_none() {
                     count_abstained(tax, batch, &mut self.abstained, r, new.is_none());
                 }
@@ -155,6 +154,15 @@ pub fn csv(tax: &Taxonomy, report: &NodeReport) -> Option<String> {
     String::from_utf8(bytes).ok()
 }
 
+/// The exact shared-threshold curve under the board's settings (per-node thresholds held) as
+/// CSV, the bytes `hedgerow curve` writes for the same files and flags. Computed on request:
+/// the chart draws a thinned copy.
+pub fn curve_csv(board: &crate::state::Board) -> Option<String> {
+    let a = board.active.as_ref()?;
+    let points = hedgerow_core::exact_curve_for(&a.taxonomy, &a.batch, &board.settings);
+    String::from_utf8(hedgerow_core::curve::curve_csv(&points).ok()?).ok()
+}
+
 /// A column of the table, to sort by.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum Column {
@@ -194,7 +202,10 @@ impl Column {
     /// Whether a first click sorts this column high to low (counts and precision: the largest
     /// first is what one looks for).
     pub fn starts_descending(self) -> bool {
-        !matches!(self, Column::File | Column::Id | Column::Name | Column::Depth)
+        !matches!(
+            self,
+            Column::File | Column::Id | Column::Name | Column::Depth
+        )
     }
 }
 

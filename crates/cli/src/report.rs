@@ -11,10 +11,6 @@ pub fn show(v: Option<f64>) -> String {
     v.map_or_else(|| "n/a".to_string(), |v| format!("{v:.4}"))
 }
 
-fn cell(v: Option<f64>) -> String {
-    v.map_or_else(String::new, |v| v.to_string())
-}
-
 pub fn table(loaded: &Loaded, m: &Metrics) -> String {
     let s = &loaded.settings;
     let tax = &loaded.taxonomy;
@@ -103,29 +99,7 @@ pub fn table(loaded: &Loaded, m: &Metrics) -> String {
     out
 }
 
+/// The curve as CSV (the core's writer, which the page's download uses too).
 pub fn curve_csv(points: &[CurvePoint]) -> anyhow::Result<Vec<u8>> {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record([
-        "threshold",
-        "predictions",
-        "correct",
-        "unverifiable",
-        "wrong",
-        "precision",
-        "specificity",
-        "reward",
-    ])?;
-    for p in points {
-        w.write_record([
-            p.threshold.to_string(),
-            p.predictions.to_string(),
-            p.correct.to_string(),
-            p.unverifiable.to_string(),
-            p.wrong.to_string(),
-            cell(p.precision),
-            cell(p.specificity),
-            cell(p.reward),
-        ])?;
-    }
-    w.into_inner().map_err(|e| anyhow::anyhow!("{e}"))
+    Ok(hedgerow_core::curve::curve_csv(points)?)
 }

@@ -100,32 +100,7 @@ impl Labels {
         let h = &array.header;
         if let npy::Scalar::Str(_) = h.dtype.scalar {
             check_column_shape(file, &h.shape)?;
-            let mut errors = Collector::default();
-            let nodes = h
-                .dtype
-                .decode_strings(array.data)
-                .into_iter()
-                .enumerate()
-                .map(|(r, id)| {
-                    if id.is_empty() {
-                        NONE
-                    } else if let Some(v) = tax.lookup(&id) {
-                        v
-                    } else {
-                        errors.push(Error::new(
-                            file,
-                            Location::row(r as u64),
-                            ErrorKind::UnknownLabel { found: id },
-                        ));
-                        NONE
-                    }
-                })
-                .collect();
-            errors.finish(file)?;
-            return Ok(Labels {
-                file: file.to_string(),
-                nodes,
-            });
+            return Self::from_ids(file, h.dtype.decode_strings(array.data), tax);
         }
         if !h.dtype.scalar.is_integer() {
             return Err(Error::new(
@@ -139,11 +114,48 @@ impl Labels {
             .into());
         }
         check_column_shape(file, &h.shape)?;
+        Self::from_indices(file, h.dtype.decode_ints(array.data), tax)
+    }
+
+    /// Labels from node ids, one per row (empty = background), as an array of strings holds
+    /// them; an unknown id is named by its row.
+    pub fn from_ids(file: &str, ids: Vec<String>, tax: &Taxonomy) -> Result<Self> {
+        let mut errors = Collector::default();
+        let nodes = ids
+            .into_iter()
+            .enumerate()
+            .map(|(r, id)| {
+                if id.is_empty() {
+                    NONE
+                } else if let Some(v) = tax.lookup(&id) {
+                    v
+                } else {
+                    errors.push(Error::new(
+                        file,
+                        Location::row(r as u64),
+                        ErrorKind::UnknownLabel { found: id },
+                    ));
+                    NONE
+                }
+            })
+            .collect();
+        errors.finish(file)?;
+        Ok(Labels {
+            file: file.to_string(),
+            nodes,
+        })
+    }
+
+    /// Labels from column indices, one per row (−1 = background), as an integer array holds
+    /// them; an index out of range is named by its row.
+    pub fn from_indices(
+        file: &str,
+        indices: impl IntoIterator<Item = i128>,
+        tax: &Taxonomy,
+    ) -> Result<Self> {
         let m = tax.len() as i128;
         let mut errors = Collector::default();
-        let nodes = h
-            .dtype
-            .decode_ints(array.data)
+        let nodes = indices
             .into_iter()
             .enumerate()
             .map(|(r, v)| match v {
@@ -267,6 +279,12 @@ impl Objectness {
         check_column_shape(file, &h.shape)?;
         let mut raw = Vec::new();
         h.dtype.decode_into(array.data, &mut raw);
+        Self::from_values(file, &raw)
+    }
+
+    /// Objectness from one value per row (stored as f32); a value outside [0, 1] is named by
+    /// its row.
+    pub fn from_values(file: &str, raw: &[f64]) -> Result<Self> {
         let mut errors = Collector::default();
         let values = raw
             .iter()
@@ -278,11 +296,12 @@ impl Objectness {
                         file,
                         Location::row(r as u64),
                         ErrorKind::NotProbability {
-                            // As the file holds it: 1.2 in float32, not its f64 widening.
-                            found: if h.dtype.scalar == crate::npy::Scalar::F64 {
-                                v.to_string()
-                            } else {
+                            // As the file holds it: 1.2 in float32, not its f64 widening
+                            // (a value float32 holds exactly is shown as float32's).
+                            found: if f64::from(v32) == v {
                                 v32.to_string()
+                            } else {
+                                v.to_string()
                             },
                         },
                     ));

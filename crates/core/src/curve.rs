@@ -90,6 +90,36 @@ pub fn exact_curve(
     CurveIndex::new(tax, batch, rule).sweep(tax, batch, object_threshold, policy)
 }
 
+/// The curve as CSV, one row per point: `hedgerow curve` and the page's download write these
+/// bytes. An absent ratio is an empty field.
+pub fn curve_csv(points: &[CurvePoint]) -> Result<Vec<u8>, csv::Error> {
+    let cell = |v: Option<f64>| v.map_or_else(String::new, |v| v.to_string());
+    let mut w = csv::Writer::from_writer(Vec::new());
+    w.write_record([
+        "threshold",
+        "predictions",
+        "correct",
+        "unverifiable",
+        "wrong",
+        "precision",
+        "specificity",
+        "reward",
+    ])?;
+    for p in points {
+        w.write_record([
+            p.threshold.to_string(),
+            p.predictions.to_string(),
+            p.correct.to_string(),
+            p.unverifiable.to_string(),
+            p.wrong.to_string(),
+            cell(p.precision),
+            cell(p.specificity),
+            cell(p.reward),
+        ])?;
+    }
+    w.into_inner().map_err(|e| csv::Error::from(e.into_error()))
+}
+
 /// The curve of `settings`: its rule, object threshold and policy, and its per-node overrides
 /// held fixed while the threshold shared by every other node sweeps from 1 to 0 (the per-depth
 /// thresholds of `settings` are what is swept, so they are not used). Each point equals

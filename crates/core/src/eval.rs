@@ -7,6 +7,7 @@ use crate::batch::Batch;
 pub use crate::decode::Step;
 use crate::decode::{prediction_outcome, Decoder};
 use crate::settings::{Policy, Rule, Settings};
+pub use crate::tally::Tallies;
 use crate::taxonomy::{Taxonomy, NONE};
 
 /// What happened to one row.
@@ -88,7 +89,7 @@ pub struct Metrics {
     pub unverifiable_policy: Policy,
 }
 
-fn ratio(num: f64, den: f64) -> Option<f64> {
+pub(crate) fn ratio(num: f64, den: f64) -> Option<f64> {
     (den > 0.0).then(|| num / den)
 }
 
@@ -137,19 +138,19 @@ pub(crate) fn outcome_at(batch: &Batch, r: usize, s: usize) -> Outcome {
 /// Running sums of one evaluation, before they become ratios. All integers: information gain
 /// is summed at the end from per-node counts (in node order), so any way of reaching the same
 /// decisions (a full pass, or moving only the rows that flip) gives bit-identical metrics.
-#[derive(Debug, Clone, Default)]
+#[derive(Debug, Clone, Default, PartialEq, Eq, Serialize, Deserialize)]
 pub(crate) struct Sums {
-    stop_count: Vec<OutcomeCount>,
+    pub(crate) stop_count: Vec<OutcomeCount>,
     pub(crate) abstained: u64,
     pub(crate) false_alarms: u64,
     /// Predictions per predicted node (index `len()` is the root).
-    predicted_at: Vec<u64>,
+    pub(crate) predicted_at: Vec<u64>,
     /// Correct predictions per predicted node.
-    correct_at: Vec<u64>,
-    h_inter: u64,
-    h_pred: u64,
-    severity: u64,
-    severity_n: u64,
+    pub(crate) correct_at: Vec<u64>,
+    pub(crate) h_inter: u64,
+    pub(crate) h_pred: u64,
+    pub(crate) severity: u64,
+    pub(crate) severity_n: u64,
 }
 
 impl Sums {
@@ -205,6 +206,12 @@ impl Sums {
 /// no ancestor lookups while descending); with overrides, the general loop. Both give the same
 /// sums in the same order, so the results are identical.
 pub fn evaluate(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Metrics {
+    tally(tax, batch, settings).metrics(tax)
+}
+
+/// The integer sums behind [`evaluate`]'s metrics, which add across batches: the tallies of
+/// the parts of a batch, added, give the very metrics of the whole (see [`Tallies`]).
+pub fn tally(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Tallies {
     let sums = if settings.thresholds.nodes.is_empty() {
         let depths: Vec<f64> = (1..=batch.paths().width())
             .map(|d| settings.thresholds.at_depth(d))
@@ -220,7 +227,7 @@ pub fn evaluate(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Metrics {
     } else {
         general(tax, batch, settings)
     };
-    finish(tax, batch, settings, sums)
+    Tallies::new(tax, batch, settings, sums)
 }
 
 /// The fast path: per row, the stop depth is the number of leading depths that pass, at most
@@ -335,84 +342,7 @@ fn general(tax: &Taxonomy, batch: &Batch, settings: &Settings) -> Sums {
 }
 
 pub(crate) fn finish(tax: &Taxonomy, batch: &Batch, settings: &Settings, sums: Sums) -> Metrics {
-    let Sums {
-        stop_count,
-        abstained,
-        false_alarms,
-        predicted_at,
-        correct_at,
-        h_inter,
-        h_pred,
-        severity: severity_sum,
-        severity_n,
-    } = sums;
-    let labelled = batch.labelled_rows();
-    let h_true = batch.label_depth_sum();
-    let weigh = |counts: &[u64]| -> f64 {
-        counts
-            .iter()
-            .enumerate()
-            .filter(|(_, &k)| k > 0)
-            .map(|(v, &k)| k as f64 * tax.gain(v as u32))
-            .sum()
-    };
-    let (gain_sum, reward_sum) = (weigh(&predicted_at), weigh(&correct_at));
-    let correct: u64 = stop_count.iter().map(|c| c.correct).sum();
-    let unverifiable: u64 = stop_count.iter().map(|c| c.unverifiable).sum();
-    let wrong: u64 = stop_count.iter().map(|c| c.wrong).sum();
-    let predictions = correct + unverifiable + wrong;
-    let n = predictions as f64;
-    let hp = ratio(h_inter as f64, h_pred as f64);
-    let hr = ratio(h_inter as f64, h_true as f64);
-    let hf = match (hp, hr) {
-        (Some(p), Some(r)) if p + r > 0.0 => Some(2.0 * p * r / (p + r)),
-        (Some(_), Some(_)) => Some(0.0),
-        _ => None,
-    };
-    Metrics {
-        rows: batch.len() as u64,
-        predictions,
-        abstained,
-        correct,
-        unverifiable,
-        wrong,
-        labelled_rows: labelled,
-        background_rows: batch.len() as u64 - labelled,
-        false_alarms,
-        precision: precision(settings.policy, correct, unverifiable, wrong),
-        precision_interval: {
-            let (k, m) = match settings.policy {
-                Policy::Credit => (correct + unverifiable, predictions),
-                Policy::Penalize => (correct, predictions),
-                Policy::Exclude => (correct, correct + wrong),
-            };
-            crate::stats::wilson(k, m, crate::stats::Z95)
-        },
-        specificity: ratio(gain_sum, n),
-        reward: ratio(reward_sum, n),
-        stop_share: stop_count
-            .iter()
-            .map(|c| ratio((c.correct + c.unverifiable + c.wrong) as f64, n))
-            .collect(),
-        stop_outcome: stop_count
-            .iter()
-            .map(|c| {
-                let share = |k: u64| ratio(k as f64, n);
-                OutcomeShare {
-                    correct: share(c.correct),
-                    unverifiable: share(c.unverifiable),
-                    wrong: share(c.wrong),
-                }
-            })
-            .collect(),
-        stop_count,
-        hierarchical_precision: hp,
-        hierarchical_recall: hr,
-        hierarchical_f1: hf,
-        mistake_severity: ratio(severity_sum as f64, severity_n as f64),
-        rule: settings.rule,
-        unverifiable_policy: settings.policy,
-    }
+    Tallies::new(tax, batch, settings, sums).metrics(tax)
 }
 
 /// The full decode of one row, for `hedgerow decode`.

@@ -50,6 +50,7 @@ pub mod settings;
 pub mod siblings;
 pub mod stats;
 pub mod suggest;
+pub mod tally;
 pub mod taxonomy;
 
 pub use batch::{Batch, Labels, Objectness};
@@ -57,10 +58,11 @@ pub use curve::{depth_sweep, exact_curve, exact_curve_for, CurveIndex, CurvePoin
 pub use decode::{Decision, Decoder, Step};
 pub use drag::DepthDrag;
 pub use error::{Error, ErrorKind, Errors, Location, Result};
-pub use eval::{decode_row, evaluate, Metrics, Outcome, RowDecode};
+pub use eval::{decode_row, evaluate, tally, Metrics, Outcome, RowDecode};
 pub use nodes::{node_counts, node_report, NodeCounts, NodeRecord, NodeReport};
 pub use paths::{Ingested, LogitsReader, Paths};
 pub use profile::Profile;
 pub use settings::{Policy, Rule, Settings, Temperatures, Thresholds};
 pub use suggest::{suggest, Maximize, Report, Request};
+pub use tally::{Tallies, TallyStamp};
 pub use taxonomy::Taxonomy;

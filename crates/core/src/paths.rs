@@ -138,7 +138,9 @@ pub(crate) fn group_exps(
     let max = exps.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     let mut sum = 0.0;
     for z in exps.iter_mut() {
-        *z = (*z - max).exp();
+        // libm's exp, not the platform's (glibc natively, libm in wasm): the same bits in the
+        // page and the command line.
+        *z = libm::exp(*z - max);
         sum += *z;
     }
     sum

@@ -392,7 +392,9 @@ impl Taxonomy {
                 } else if total <= 1.0 {
                     1.0
                 } else {
-                    1.0 - (leaves[v] as f64).ln() / total.ln()
+                    // libm's log, not the platform's: the page (wasm) and the command line
+                    // (native) then give the same bits.
+                    1.0 - libm::log(leaves[v] as f64) / libm::log(total)
                 }
             })
             .collect();

@@ -14,7 +14,9 @@ use std::process::Command;
 use anyhow::{ensure, Context};
 use serde_json::{json, Value};
 
-use super::page::{evaluate_files, expect_headline, fresh_demo, screenshot};
+use super::page::{
+    clear_dir, evaluate_files, expect_headline, fresh_demo, screenshot, wait_download,
+};
 use super::{Browser, Ctx, Test};
 use crate::wordnet::{self, Generated, Options};
 
@@ -25,7 +27,7 @@ pub fn tests() -> Vec<Test> {
             |b, c| Box::pin(table_equals_cli(b, c)),
         ),
         Test::new(
-            "where it fails: the inspector's paths equal hedgerow decode, its runner-ups a softmax of the .npy; the taxonomy view focuses and goes back",
+            "where it fails: the inspector's paths equal hedgerow decode, its runner-ups a softmax of the .npy; the taxonomy view focuses and goes back; the charts download as SVG",
             |b, c| Box::pin(inspector_and_view(b, c)),
         ),
         Test::new(
@@ -207,6 +209,14 @@ async fn expect_table(
         ensure!(g == Some(w), "{what}: node {id:?}: page {g:?}, CLI {w:?}");
     }
     Ok(())
+}
+
+/// Click a download control and return the file's bytes.
+async fn download(b: &Browser, id: &str, name: &str) -> anyhow::Result<Vec<u8>> {
+    clear_dir(&b.download_dir)?;
+    b.click(id).await?;
+    let path = wait_download(&b.download_dir, |n| n == name, name, b.timeout).await?;
+    Ok(std::fs::read(path)?)
 }
 
 async fn load(b: &Browser, c: &Ctx, files: &[(&str, &Path)]) -> anyhow::Result<()> {
@@ -578,5 +588,22 @@ async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     b.click("icicle-whole").await?;
     let crumbs = b.text("icicle-breadcrumb").await?;
     ensure!(crumbs.trim() == "whole tree", "back: {crumbs:?}");
+    // Each chart downloads as SVG, drawn by the canvas's function.
+    for (id, name, part) in [
+        (
+            "chart-stops-svg",
+            "chart-stops.svg",
+            "depth where descent stops",
+        ),
+        ("chart-tradeoff-svg", "chart-tradeoff.svg", "specificity"),
+        ("icicle-svg", "taxonomy-view.svg", "reached the node"),
+    ] {
+        let svg = String::from_utf8(download(b, id, name).await?)?;
+        ensure!(
+            svg.starts_with("<svg") && svg.contains(part),
+            "{name}: {} bytes, no {part:?}",
+            svg.len()
+        );
+    }
     Ok(())
 }

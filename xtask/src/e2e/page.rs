@@ -836,7 +836,7 @@ async fn node_overrides(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
 
 /// Wait for a download whose name satisfies `named` (`what` it should be) to finish in `dir`
 /// and return its path.
-async fn wait_download(
+pub(super) async fn wait_download(
     dir: &Path,
     named: impl Fn(&str) -> bool,
     what: &str,
@@ -863,7 +863,7 @@ async fn wait_download(
     }
 }
 
-fn clear_dir(dir: &Path) -> anyhow::Result<()> {
+pub(super) fn clear_dir(dir: &Path) -> anyhow::Result<()> {
     for e in std::fs::read_dir(dir)? {
         let p = e?.path();
         if p.is_file() {

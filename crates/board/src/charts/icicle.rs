@@ -22,12 +22,7 @@ pub const ABOVE: RGBColor = RGBColor(0x8F, 0xA3, 0xC7);
 pub const ABSTAINED: RGBColor = RGBColor(0xC9, 0xCD, 0xD2);
 
 /// The legend's texts, bottom to top of each cell.
-pub const FATE_LABELS: [&str; 4] = [
-    "reached the node",
-    "stopped above",
-    "wrong",
-    "abstained",
-];
+pub const FATE_LABELS: [&str; 4] = ["reached the node", "stopped above", "wrong", "abstained"];
 
 /// One node's cell.
 #[derive(Debug, Clone, PartialEq)]
@@ -71,7 +66,11 @@ pub fn icicle_view(tax: &Taxonomy, fates: &[Fate], focus: u32) -> IcicleView {
         let id = tax.id(v);
         cells.push(IcicleCell {
             node: v,
-            label: if id.is_empty() { "(root)".into() } else { id.into() },
+            label: if id.is_empty() {
+                "(root)".into()
+            } else {
+                id.into()
+            },
             row: depth_of(v) - base,
             x0,
             x1,
@@ -112,7 +111,12 @@ impl IcicleView {
         let band = (f64::from(h) - f64::from(top)).max(0.0) / self.rows.max(1) as f64;
         let y0 = top + px(band * cell.row as f64);
         let y1 = top + px(band * (cell.row + 1) as f64);
-        (px(cell.x0 * f64::from(w)), y0, px(cell.x1 * f64::from(w)), y1)
+        (
+            px(cell.x0 * f64::from(w)),
+            y0,
+            px(cell.x1 * f64::from(w)),
+            y1,
+        )
     }
 
     /// The cell under pixel `(x, y)` of an area of `w` × `h` pixels.

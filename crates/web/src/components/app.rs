@@ -96,6 +96,32 @@ pub fn app() -> Html {
         })
     };
 
+    let on_curve_csv = {
+        let board = board.clone();
+        Callback::from(move |_: MouseEvent| {
+            let stem = board
+                .active
+                .as_ref()
+                .and_then(|a| a.names.get(&Slot::Taxonomy).cloned())
+                .unwrap_or_else(|| "taxonomy".into());
+            let stem = stem
+                .rsplit_once('.')
+                .map_or(stem.as_str(), |(s, _)| s)
+                .to_string();
+            let result = hedgerow_board::nodes::curve_csv(&board)
+                .ok_or_else(|| "load a complete batch first".to_string())
+                .and_then(|text| {
+                    browser::download(&format!("{stem}-curve.csv"), "text/csv", &text)
+                });
+            if let Err(e) = result {
+                board.dispatch(Action::Unreadable {
+                    slot: Some(Slot::Other),
+                    message: format!("saving the curve: {e}"),
+                });
+            }
+        })
+    };
+
     let depth = board.depth();
     let errors: Vec<String> = board.errors.values().flatten().cloned().collect();
     let active_names = board.active.as_ref().map(|a| (a.names.clone(), a.origin));
@@ -158,6 +184,14 @@ pub fn app() -> Html {
                             caption="Share of predictions that stop at each depth (0 = the root: type unknown), by outcome."
                             view={stops} />
                     </section>
+                    if board.metrics.is_some() {
+                        <p class="chart-tools">
+                            <button type="button" class="secondary" data-testid="curve-csv" onclick={on_curve_csv}
+                                title="The exact curve of one shared threshold (node thresholds held), as hedgerow curve writes it">
+                                { "Download the curve as CSV" }
+                            </button>
+                        </p>
+                    }
                 </div>
             </div>
             <SuggestPanel suggestion={board.current_suggestion().cloned()}

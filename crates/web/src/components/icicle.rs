@@ -6,7 +6,7 @@
 
 use std::rc::Rc;
 
-use hedgerow_board::charts::{draw_icicle, icicle_view, IcicleView};
+use hedgerow_board::charts::{draw_icicle, icicle_view, svg_of, IcicleView};
 use hedgerow_board::nodes::Fate;
 use hedgerow_core::Taxonomy;
 use plotters::prelude::*;
@@ -29,7 +29,11 @@ pub struct IcicleProps {
     pub on_select: Callback<u32>,
 }
 
-fn draw(canvas: &HtmlCanvasElement, view: &IcicleView, selected: Option<u32>) -> Result<(), String> {
+fn draw(
+    canvas: &HtmlCanvasElement,
+    view: &IcicleView,
+    selected: Option<u32>,
+) -> Result<(), String> {
     let ratio = pixel_ratio();
     let (css_w, css_h) = (canvas.client_width(), canvas.client_height());
     if css_w <= 0 || css_h <= 0 {
@@ -154,7 +158,11 @@ pub fn icicle(props: &IcicleProps) -> Html {
     };
     let crumb_items = crumbs.iter().enumerate().map(|(i, &v)| {
         let id = tax.id(v);
-        let label = if id.is_empty() { "whole tree".to_string() } else { id.to_string() };
+        let label = if id.is_empty() {
+            "whole tree".to_string()
+        } else {
+            id.to_string()
+        };
         let last = i + 1 == crumbs.len();
         let onclick = props.on_focus.reform(move |_: MouseEvent| v);
         html! {
@@ -181,6 +189,24 @@ pub fn icicle(props: &IcicleProps) -> Html {
         })
     };
     let text = readout(tax, &props.fates.0, shown);
+    let on_svg = {
+        let (canvas, view, selected) = (canvas.clone(), view.clone(), props.selected);
+        Callback::from(move |_: MouseEvent| {
+            let Some(c) = canvas.cast::<HtmlCanvasElement>() else {
+                return;
+            };
+            let dims = (
+                c.client_width().max(320) as u32,
+                c.client_height().max(200) as u32,
+            );
+            let result = svg_of(dims, |area| draw_icicle(area, &view, selected))
+                .ok_or_else(|| "the taxonomy view could not be drawn".to_string())
+                .and_then(|t| crate::browser::download("taxonomy-view.svg", "image/svg+xml", &t));
+            if let Err(e) = result {
+                web_sys::console::warn_1(&format!("taxonomy view SVG: {e}").into());
+            }
+        })
+    };
     html! {
         <section class="panel icicle" aria-labelledby="icicle-title">
             <h2 id="icicle-title">{ "The taxonomy: where rows end up" }</h2>
@@ -194,6 +220,8 @@ pub fn icicle(props: &IcicleProps) -> Html {
                 aria-label={format!("Taxonomy view focused on {}", if tax.id(props.focus).is_empty() { "the whole tree" } else { tax.id(props.focus) })}
                 onclick={on_click} onmousemove={on_move} onmouseleave={on_leave}></canvas>
             <p class="readout" data-testid="icicle-readout" aria-live="polite">{ text }</p>
+            <button type="button" class="link chart-export" data-testid="icicle-svg" onclick={on_svg}
+                title="Download this view as SVG (drawn by the same function as the canvas)">{ "Download SVG" }</button>
         </section>
     }
 }

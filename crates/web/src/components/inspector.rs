@@ -202,6 +202,7 @@ pub fn inspector(props: &InspectorProps) -> Html {
                 <h3>{ format!("Row {}", d.row) }</h3>
                 <p>{ format!("label {} · predicted {} · {}", if d.label.is_empty() { "none (background)" } else { &d.label }, if d.predicted.is_empty() { "nothing (abstained)" } else { &d.predicted }, d.outcome.as_str()) }</p>
                 <p data-testid="row-why">{ d.why.clone() }</p>
+                <div class="table-scroll">
                 <table data-testid="row-path">
                     <thead><tr>
                         <th scope="col">{ "depth" }</th><th scope="col">{ "node" }</th>
@@ -211,6 +212,7 @@ pub fn inspector(props: &InspectorProps) -> Html {
                     </tr></thead>
                     <tbody>{ for steps }</tbody>
                 </table>
+                </div>
                 if let Some(RunnerUpColumn::Note(why)) = &column {
                     <p class="help" data-testid="runner-up-note">{ note_text(why) }</p>
                 }
@@ -248,10 +250,12 @@ pub fn inspector(props: &InspectorProps) -> Html {
                 if page.rows.is_empty() { format!("No rows from row {} on match.", *start) }
                 else { format!("Rows {}–{} that match (from row {}).", page.rows.first().map_or(0, |l| l.row), page.rows.last().map_or(0, |l| l.row), *start) }
             }</p>
+            <div class="table-scroll">
             <table data-testid="inspect-rows">
                 <thead><tr><th scope="col">{ "row" }</th><th scope="col">{ "label" }</th><th scope="col">{ "predicted" }</th><th scope="col">{ "depth" }</th><th scope="col">{ "outcome" }</th></tr></thead>
                 <tbody>{ for lines }</tbody>
             </table>
+            </div>
             <nav class="pager" aria-label="Pages of rows">
                 <button type="button" class="secondary" disabled={starts.is_empty()} onclick={on_prev}>{ "Previous" }</button>
                 <button type="button" class="secondary" disabled={page.next.is_none()} onclick={on_next}>{ "Next" }</button>

@@ -155,7 +155,9 @@ pub fn node_table(props: &NodeTableProps) -> Html {
             let stem = stem.rsplit_once('.').map_or(stem.as_str(), |(s, _)| s);
             let result = nodes::csv(&taxonomy, &report)
                 .ok_or_else(|| "the table could not be written".to_string())
-                .and_then(|text| browser::download(&format!("{stem}-nodes.csv"), "text/csv", &text));
+                .and_then(|text| {
+                    browser::download(&format!("{stem}-nodes.csv"), "text/csv", &text)
+                });
             if let Err(e) = result {
                 on_action.emit(Action::Unreadable {
                     slot: Some(Slot::Other),
