@@ -9,6 +9,7 @@ mod bad_input;
 mod catalogue;
 mod nodes;
 mod overrides;
+mod runner_up;
 mod shell;
 mod suggest;
 

@@ -1,6 +1,7 @@
 //! What the page's shell (`crates/web/src/hooks/use_loader.rs`) does around the board's
 //! `loading` steps, with files held in memory: keep the chosen logits by name, dispatch the
-//! selection's actions, stream whenever the board asks for paths. The steps themselves are the
+//! selection's actions, stream whenever the board asks for paths, read one row's logits when the
+//! inspector opens it. The steps themselves are the
 //! page's own code (`hedgerow_board::loading`).
 
 use std::collections::HashMap;
@@ -106,9 +107,14 @@ impl Shell {
         }
     }
 
-    /// Stream whenever the board asks for paths.
+    /// Stream whenever the board asks for paths, then read the inspected row's logits when
+    /// the board asks for them (as the loader hook does after each render).
     pub fn pump(&mut self, b: &mut Board) {
         while self.read(b, None) {}
+        while let Some(want) = b.wanted_row() {
+            let action = block_on(loading::row_action(self.plans.get(&want.logits), &want));
+            b.apply(action);
+        }
     }
 
     /// Start the read the board asks for and abandon it after `bytes` (as Cancel does).

@@ -4,8 +4,8 @@
 //! probability, the threshold that applied (its depth's or the node's own), where descent
 //! stopped and why. Every decision is the core's `decode_row`; nothing is decoded here.
 //!
-//! The runner-up sibling at each step is not shown: the stored paths keep only the greedy
-//! child's conditional per depth, and the page does not keep the logits after reading them.
+//! The runner-up sibling at each step is not here: the stored paths keep only the greedy
+//! child's conditional per depth, so `crate::runner_up` reads the opened row's logits again.
 
 use hedgerow_core::taxonomy::NONE;
 use hedgerow_core::{decode_row, Batch, Outcome, Rule, Settings, Taxonomy};

@@ -8,8 +8,11 @@ use std::future::Future;
 use std::rc::Rc;
 
 use hedgerow_core::intake::{self, Bundle, Kind, LogitsFeed};
-use hedgerow_core::{npz, Error, ErrorKind, Errors, Ingested, Location, Taxonomy, Temperatures};
+use hedgerow_core::{
+    npz, siblings, Error, ErrorKind, Errors, Ingested, Location, Taxonomy, Temperatures,
+};
 
+use crate::runner_up::RowWanted;
 use crate::state::{Action, IngestKey, Origin, Slot};
 
 /// Bytes read from a logits file per step; the page yields to the browser after each.
@@ -294,4 +297,43 @@ pub async fn stream<S: Source>(
         progress.pause().await;
     }
     Some(feed.finish(tax))
+}
+
+/// The bytes of one row of a chosen logits file, read alone: where they lie is the core's
+/// `siblings::row_range` (a C-order `.npy`, or a bundle member stored uncompressed as
+/// `np.savez` writes it); otherwise why they cannot be read, in words the inspector shows.
+pub async fn read_row<S: Source>(
+    plan: &LogitsPlan<S>,
+    want: &RowWanted,
+) -> Result<Vec<u8>, String> {
+    let member = plan.member.as_ref().map(|(_, m)| m);
+    let (start, end) = siblings::row_range(&want.header, plan.range.0, member, want.row as u64)
+        .map_err(|e| e.to_string())?;
+    let bytes = read(&plan.source, start, end).await?;
+    if bytes.len() as u64 != end - start {
+        return Err(format!(
+            "{}: row {} is cut short ({} of {} bytes; was the file changed?)",
+            plan.source.name(),
+            want.row,
+            bytes.len(),
+            end - start
+        ));
+    }
+    Ok(bytes)
+}
+
+/// [`read_row`] as the action that reports it.
+pub async fn row_action<S: Source>(plan: Option<&LogitsPlan<S>>, want: &RowWanted) -> Action {
+    let result = match plan {
+        Some(plan) => read_row(plan, want).await,
+        None => Err(format!(
+            "{}: the file is no longer available to read a row from: choose it again",
+            want.logits
+        )),
+    };
+    Action::RowLogits {
+        row: want.row,
+        generation: want.generation,
+        result,
+    }
 }

@@ -52,6 +52,9 @@ pub struct Active {
     /// Which staged files it was built from (their sequence numbers, and the paths' address):
     /// assembling the same files again is skipped.
     pub(crate) built_from: Vec<u64>,
+    /// The logits' `.npy` header (a bundle member's own), so one row's bytes can be found
+    /// again (`crate::runner_up`).
+    pub logits_header: hedgerow_core::npy::Header,
 }
 
 #[derive(Debug, Clone, Default)]
@@ -106,6 +109,8 @@ pub struct Board {
     /// The last suggestion asked for (see `crate::suggestion`), and why the last ask failed.
     pub suggestion: Option<Rc<crate::suggestion::Suggested>>,
     pub suggestion_error: Option<String>,
+    /// The row open in the inspector and its runner-up siblings (see `crate::runner_up`).
+    pub inspected: Option<crate::runner_up::Inspected>,
 }
 
 impl Board {
@@ -261,6 +266,12 @@ impl Board {
             }
             Action::SetNodeThreshold { id, value } => self.set_node(&id, value),
             Action::Suggest(ask) => self.suggest(ask),
+            Action::Inspect(row) => self.inspect(row),
+            Action::RowLogits {
+                row,
+                generation,
+                result,
+            } => self.row_logits(row, generation, result),
             Action::Reset => {
                 self.settings.thresholds.nodes.clear();
                 self.apply(Action::Restore(Stored::default()));

@@ -47,6 +47,7 @@ pub mod npz;
 pub mod paths;
 pub mod profile;
 pub mod settings;
+pub mod siblings;
 pub mod stats;
 pub mod suggest;
 pub mod tally;

@@ -103,16 +103,7 @@ pub fn descend_with(
             (*only, 1.0)
         } else {
             let t = temps.get(d - 1).copied().unwrap_or(1.0);
-            scratch.clear();
-            scratch.extend(children.iter().map(|&c| logit(c as usize) / t));
-            let max = scratch.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-            let mut sum = 0.0;
-            for z in scratch.iter_mut() {
-                // libm's exp, not the platform's (glibc natively, libm in wasm): the same bits
-                // in the page and the command line.
-                *z = libm::exp(*z - max);
-                sum += *z;
-            }
+            let sum = group_exps(children, t, &logit, scratch);
             let mut best = 0;
             let mut best_p = f64::NEG_INFINITY;
             for (i, e) in scratch.iter().enumerate() {
@@ -129,6 +120,30 @@ pub fn descend_with(
         }
         v = best;
     }
+}
+
+/// The softmax of one sibling group, shared by the greedy descent and the inspector's
+/// runner-ups (`crate::siblings`) so both give the same bits: fills `exps` with
+/// exp(z − max z) per child (z = logit / `t`, children in column order) and returns their sum;
+/// child i's probability is `exps[i] / sum`.
+#[inline]
+pub(crate) fn group_exps(
+    children: &[u32],
+    t: f64,
+    logit: impl Fn(usize) -> f64,
+    exps: &mut Vec<f64>,
+) -> f64 {
+    exps.clear();
+    exps.extend(children.iter().map(|&c| logit(c as usize) / t));
+    let max = exps.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let mut sum = 0.0;
+    for z in exps.iter_mut() {
+        // libm's exp, not the platform's (glibc natively, libm in wasm): the same bits in the
+        // page and the command line.
+        *z = libm::exp(*z - max);
+        sum += *z;
+    }
+    sum
 }
 
 /// Whether every float in `row` is finite, checked on the raw bits (exponent not all ones).

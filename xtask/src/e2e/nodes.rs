@@ -2,7 +2,9 @@
 //! [`crate::wordnet::generate`] under `target/e2e/nodes/`): the per-node table read from the
 //! DOM equals `hedgerow nodes --json` on the same files, before and after a depth threshold and
 //! a node's own threshold change (set from the table's editor); the row inspector's path for a
-//! few rows equals `hedgerow decode --format jsonl`; the taxonomy view focuses a subtree on a
+//! few rows equals `hedgerow decode --format jsonl`, and its runner-up siblings equal a softmax
+//! computed here from the `.npy` (on the demo's embedded logits too; a compressed bundle shows
+//! why there are none); the taxonomy view focuses a subtree on a
 //! click and goes back. Screenshots: `target/e2e/nodes-*.png`.
 
 use std::collections::BTreeMap;
@@ -25,8 +27,12 @@ pub fn tests() -> Vec<Test> {
             |b, c| Box::pin(table_equals_cli(b, c)),
         ),
         Test::new(
-            "where it fails: the inspector's paths equal hedgerow decode; the taxonomy view focuses and goes back; the charts download as SVG",
+            "where it fails: the inspector's paths equal hedgerow decode, its runner-ups a softmax of the .npy; the taxonomy view focuses and goes back; the charts download as SVG",
             |b, c| Box::pin(inspector_and_view(b, c)),
+        ),
+        Test::new(
+            "where it fails: the inspector's runner-ups on the demo's embedded float16 logits equal a softmax of the .npy; a compressed bundle says why there are none",
+            |b, c| Box::pin(runner_ups_demo_and_bundle(b, c)),
         ),
     ]
 }
@@ -298,6 +304,153 @@ async fn table_equals_cli(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     expect_table(b, &want, "the node's threshold cleared").await
 }
 
+/// A runner-up as compared: the sibling's id and p(sibling | parent); `None` for an only child.
+type RunnerUp = Option<(String, f64)>;
+
+/// The runner-up column of the open row (depth 1 on), once the row's logits are read.
+async fn page_runner_ups(b: &Browser, r: usize) -> anyhow::Result<Vec<RunnerUp>> {
+    let js = r#"const d = document.querySelector('[data-testid=row-detail]');
+        if (!d || d.dataset.row !== String(arguments[0])) return null;
+        const cells = [...d.querySelectorAll('[data-testid=row-path] tbody tr')].slice(1)
+            .map(tr => tr.querySelector('td.runner-up'));
+        if (cells.some(c => c.textContent === '…')) return null;
+        return cells.map(c => c.dataset.value === undefined ? null : [c.dataset.node, Number(c.dataset.value)]);"#;
+    for _ in 0..100 {
+        let v = b.eval(js, vec![json!(r)]).await?;
+        if let Some(cells) = v.as_array() {
+            return Ok(cells
+                .iter()
+                .map(|c| {
+                    c.as_array().map(|x| {
+                        let id = x[0].as_str().unwrap_or("?").to_string();
+                        (id, x[1].as_f64().unwrap_or(f64::NAN))
+                    })
+                })
+                .collect());
+        }
+        tokio::time::sleep(std::time::Duration::from_millis(50)).await;
+    }
+    let note = b.text("runner-up-note").await.unwrap_or_default();
+    anyhow::bail!("row {r}: the runner-up column did not fill ({note:?})")
+}
+
+/// The runner-ups of row `r` computed here from the `.npy`'s bytes: along the greedy path, each
+/// sibling group's softmax in f64 (temperature 1: exp(z − max z) / Σ exp(z − max z), children
+/// in column order), the child with the highest p taken (the first on ties) and the highest of
+/// the others, as f32 like the stored paths.
+fn reference_runner_ups(
+    tax: &hedgerow_core::Taxonomy,
+    npy: &[u8],
+    r: usize,
+) -> anyhow::Result<Vec<RunnerUp>> {
+    let array =
+        hedgerow_core::npy::read_array(npy).map_err(|e| anyhow::anyhow!("the .npy: {e}"))?;
+    ensure!(!array.header.fortran_order, "a C-order .npy");
+    let m = tax.len();
+    let size = array.header.dtype.scalar.size();
+    let row = array
+        .data
+        .get(r * m * size..(r + 1) * m * size)
+        .context("the row")?;
+    let mut logits = Vec::new();
+    array.header.dtype.decode_into(row, &mut logits);
+    let mut out = Vec::new();
+    let mut v = tax.root();
+    loop {
+        let children = tax.children(v);
+        if children.is_empty() {
+            return Ok(out);
+        }
+        if let [only] = children {
+            out.push(None);
+            v = *only;
+            continue;
+        }
+        let z: Vec<f64> = children.iter().map(|&c| logits[c as usize]).collect();
+        let max = z.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        let e: Vec<f64> = z.iter().map(|z| (z - max).exp()).collect();
+        let sum: f64 = e.iter().sum();
+        let mut order: Vec<usize> = (0..children.len()).collect();
+        order.sort_by(|&a, &b| (e[b] / sum).total_cmp(&(e[a] / sum)));
+        let second = order[1];
+        out.push(Some((
+            tax.id(children[second]).to_string(),
+            (e[second] / sum) as f32 as f64,
+        )));
+        v = children[order[0]];
+    }
+}
+
+/// Open row `r` in the inspector (listed on the first page) and compare its runner-ups.
+async fn expect_runner_ups(
+    b: &Browser,
+    tax: &hedgerow_core::Taxonomy,
+    npy: &[u8],
+    r: usize,
+) -> anyhow::Result<usize> {
+    b.click(&format!("inspect-row-{r}")).await?;
+    let page = page_runner_ups(b, r).await?;
+    let want = reference_runner_ups(tax, npy, r)?;
+    ensure!(
+        page == want,
+        "row {r}: page runner-ups {page:?}, from the .npy {want:?}"
+    );
+    Ok(want.iter().flatten().count())
+}
+
+async fn runner_ups_demo_and_bundle(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
+    // The demo loads at start; its logits are the page's embedded bytes.
+    fresh_demo(b, c, &c.http_url).await?;
+    let demo = crate::root().join("demo-data");
+    let tax =
+        hedgerow_core::Taxonomy::parse(&std::fs::read(demo.join("taxonomy.csv"))?, "taxonomy.csv")
+            .map_err(|e| anyhow::anyhow!("{e}"))?;
+    let logits = std::fs::read(demo.join("logits.npy"))?;
+    let mut compared = 0;
+    for r in [0, 3, 11] {
+        compared += expect_runner_ups(b, &tax, &logits, r).await?;
+    }
+    ensure!(compared > 0, "no runner-up was compared");
+
+    // np.savez_compressed-style bundle: its rows have no fixed place.
+    let g = wordnet::generate(
+        &c.out_dir.join("nodes-bundle"),
+        &Options {
+            rows: 300,
+            seed: 11,
+            objectness: true,
+            bundle: true,
+            ..Options::default()
+        },
+    )
+    .context("generating the WordNet bundle")?;
+    let bundle = g.bundle.as_deref().context("the bundle")?;
+    let f = [("--taxonomy", g.taxonomy.as_path()), ("--logits", bundle)];
+    load(b, c, &f).await?;
+    b.click("inspect-row-0").await?;
+    let mut note = String::new();
+    for _ in 0..100 {
+        note = b.text("runner-up-note").await.unwrap_or_default();
+        if !note.is_empty() {
+            break;
+        }
+        tokio::time::sleep(std::time::Duration::from_millis(50)).await;
+    }
+    ensure!(
+        note.contains(
+            "Runner-ups need the logits as a C-order .npy or an uncompressed .npz member"
+        ) && note.contains("compressed"),
+        "the compressed bundle's note: {note:?}"
+    );
+    b.eval(
+        "document.querySelector('[data-testid=runner-up-note]').scrollIntoView({block: 'center'});",
+        vec![],
+    )
+    .await?;
+    screenshot(b, c, "nodes-runner-up-note.png").await?;
+    Ok(())
+}
+
 async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     let g = batch(c)?;
     let f = files(&g)?;
@@ -337,7 +490,11 @@ async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
         "wrong rows: page {listed:?}, CLI {want:?}"
     );
 
-    for &r in listed.iter().take(3) {
+    let tax = hedgerow_core::Taxonomy::parse(&std::fs::read(&g.taxonomy)?, "taxonomy.csv")
+        .map_err(|e| anyhow::anyhow!("{e}"))?;
+    let logits = std::fs::read(&g.logits)?;
+    let mut runner_ups = 0;
+    for &r in listed.iter().take(4) {
         b.click(&format!("inspect-row-{r}")).await?;
         let steps = b
             .eval(
@@ -374,6 +531,13 @@ async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
             !want.is_empty() && page == want,
             "row {r}: page path {page:?}, CLI {want:?}"
         );
+        let page = page_runner_ups(b, r).await?;
+        let want = reference_runner_ups(&tax, &logits, r)?;
+        ensure!(
+            page == want,
+            "row {r}: page runner-ups {page:?}, from the .npy {want:?}"
+        );
+        runner_ups += want.iter().flatten().count();
         let why = b.text("row-why").await?;
         let depth = cli["depth"].as_u64();
         ensure!(
@@ -381,12 +545,20 @@ async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
             "row {r}: {why:?}, the CLI stops at {depth:?}"
         );
     }
+    ensure!(runner_ups > 0, "no runner-up was compared");
     b.eval(
         "document.querySelector('[data-testid=row-detail]').scrollIntoView({block: 'center'});",
         vec![],
     )
     .await?;
     screenshot(b, c, "nodes-inspector.png").await?;
+    // The runner-up column, scrolled to wherever the path table puts it.
+    b.eval(
+        "document.querySelector('[data-testid=row-path] td.runner-up[data-value]').scrollIntoView({block: 'center', inline: 'end'});",
+        vec![],
+    )
+    .await?;
+    screenshot(b, c, "nodes-runner-ups.png").await?;
 
     // The taxonomy view: a click in the second band focuses a depth-1 node.
     b.eval(

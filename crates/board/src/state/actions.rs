@@ -173,6 +173,16 @@ pub enum Action {
     /// Ask for depth thresholds that hold a precision target with a guarantee
     /// (`crate::suggestion`); the depth sliders move to the suggestion.
     Suggest(crate::suggestion::Ask),
+    /// Open row `r` in the inspector; the shell reads its logits when `Board::wanted_row`
+    /// asks (`crate::runner_up`).
+    Inspect(usize),
+    /// The bytes of one row of the active batch's logits (`generation`: the batch they were
+    /// read for), or why they could not be read.
+    RowLogits {
+        row: usize,
+        generation: usize,
+        result: Result<Vec<u8>, String>,
+    },
     /// The depth whose control the user is on: chart 1 shows its sweep.
     Focus(usize),
     Restore(Stored),

@@ -664,6 +664,7 @@ impl Board {
                     names,
                     origin,
                     built_from,
+                    logits_header: ingested.header.clone(),
                 });
                 self.generation += 1;
                 let previous = self.last_activation;

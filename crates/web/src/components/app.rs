@@ -208,7 +208,9 @@ pub fn app() -> Html {
                         selected={*selected} on_select={on_select.clone()} on_action={on_action.clone()}
                         taxonomy_file={a.names.get(&Slot::Taxonomy).cloned().unwrap_or_else(|| "taxonomy".into())} />
                     <Inspector taxonomy={Shared(a.taxonomy.clone())} batch={Shared(a.batch.clone())}
-                        settings={board.settings.clone()} selected={*selected} />
+                        settings={board.settings.clone()} selected={*selected}
+                        inspected={board.inspected.as_ref().map(|i| i.row)} runner_ups={board.runner_up_column()}
+                        on_action={on_action.clone()} />
                 </section>
             }
             <FilesPanel notes={board.notes.clone()} errors={board.errors.clone()} set_aside={board.set_aside.clone()}

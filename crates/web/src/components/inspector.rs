@@ -1,8 +1,11 @@
 //! The row inspector: rows listed by outcome, stop depth and the selected node (predicted
 //! there, or labelled at or below it), a page at a time (`hedgerow_board::inspect::list_rows`);
-//! a row's button opens its greedy path step by step (`row_detail`).
+//! a row's button opens its greedy path step by step (`row_detail`), with the runner-up sibling
+//! at each step once the shell has read that row's logits (`hedgerow_board::runner_up`).
 
 use hedgerow_board::inspect::{list_rows, row_detail, RowFilter, Source};
+use hedgerow_board::runner_up::RunnerUpColumn;
+use hedgerow_board::state::Action;
 use hedgerow_core::{Batch, Outcome, Settings, Taxonomy};
 use web_sys::HtmlSelectElement;
 use yew::prelude::*;
@@ -15,6 +18,10 @@ pub struct InspectorProps {
     pub batch: Shared<Batch>,
     pub settings: Settings,
     pub selected: Option<u32>,
+    /// The row open in the inspector (the board's: `Action::Inspect`).
+    pub inspected: Option<usize>,
+    pub runner_ups: Option<RunnerUpColumn>,
+    pub on_action: Callback<Action>,
 }
 
 const PAGE: usize = 20;
@@ -47,6 +54,15 @@ fn num(v: f64) -> String {
     }
 }
 
+/// Why the runner-up column is empty, as a sentence: the engine's reason starts with
+/// "runner-ups need …"; a file's own problem starts with its name.
+fn note_text(why: &str) -> String {
+    match why.strip_prefix("runner-ups") {
+        Some(rest) => format!("Runner-ups{rest}."),
+        None => format!("No runner-ups: {why}"),
+    }
+}
+
 #[function_component(Inspector)]
 pub fn inspector(props: &InspectorProps) -> Html {
     let outcome = use_state(|| None::<Outcome>);
@@ -55,7 +71,7 @@ pub fn inspector(props: &InspectorProps) -> Html {
     let start = use_state(|| 0usize);
     // Rows where earlier pages began, for "Previous".
     let starts = use_state(Vec::<usize>::new);
-    let row = use_state(|| None::<usize>);
+    let row = props.inspected;
     let (tax, batch) = (&props.taxonomy.0, &props.batch.0);
 
     let filter = RowFilter {
@@ -130,12 +146,9 @@ pub fn inspector(props: &InspectorProps) -> Html {
 
     let lines = page.rows.iter().map(|l| {
         let r = l.row;
-        let onclick = {
-            let row = row.clone();
-            Callback::from(move |_: MouseEvent| row.set(Some(r)))
-        };
+        let onclick = props.on_action.reform(move |_: MouseEvent| Action::Inspect(r));
         html! {
-            <tr key={r} class={classes!((*row == Some(r)).then_some("selected"))}>
+            <tr key={r} class={classes!((row == Some(r)).then_some("selected"))}>
                 <td class="num"><button type="button" class="link" {onclick} data-testid={format!("inspect-row-{r}")}>{ r }</button></td>
                 <td>{ l.label.clone() }</td>
                 <td>{ l.predicted.clone() }</td>
@@ -145,13 +158,31 @@ pub fn inspector(props: &InspectorProps) -> Html {
         }
     });
 
-    let detail = (*row).and_then(|r| row_detail(tax, batch, &props.settings, r)).map(|d| {
+    let column = props.runner_ups.clone();
+    let detail = row.and_then(|r| row_detail(tax, batch, &props.settings, r)).map(|d| {
         let steps = d.steps.iter().map(|s| {
             let source = match s.source {
                 Source::Depth if s.depth == 0 => "object threshold".to_string(),
                 Source::Depth => format!("depth {}", s.depth),
                 Source::Node => "node's own".to_string(),
                 Source::None => "none (no objectness)".to_string(),
+            };
+            let runner_up = match (&column, s.depth) {
+                (_, 0) => html! { <td class="runner-up">{ "–" }</td> },
+                (Some(RunnerUpColumn::Shown(cells)), d) => match cells.get(d - 1) {
+                    Some(Some(c)) => {
+                        // The name (often long) as the cell's title, so the table stays narrow.
+                        let title = if c.name.is_empty() { c.id.clone() } else { c.name.clone() };
+                        html! {
+                            <td class="runner-up" data-node={c.id.clone()} data-value={c.conditional.to_string()} {title}>
+                                { format!("{} {}", c.id, num(c.conditional)) }
+                            </td>
+                        }
+                    }
+                    _ => html! { <td class="runner-up" data-node="">{ "only child" }</td> },
+                },
+                (Some(RunnerUpColumn::Reading), _) => html! { <td class="runner-up">{ "…" }</td> },
+                _ => html! { <td class="runner-up">{ "–" }</td> },
             };
             html! {
                 <tr class={classes!(s.taken.then_some("taken"))} data-node={s.id.clone()}>
@@ -161,6 +192,7 @@ pub fn inspector(props: &InspectorProps) -> Html {
                     <td class="num" data-value={s.cumulative.to_string()}>{ num(s.cumulative) }</td>
                     <td class="num" data-value={s.threshold.to_string()}>{ num(s.threshold) }</td>
                     <td>{ source }</td>
+                    { runner_up }
                     <td>{ if s.taken { "stepped in" } else { "stopped before" } }</td>
                 </tr>
             }
@@ -175,12 +207,16 @@ pub fn inspector(props: &InspectorProps) -> Html {
                     <thead><tr>
                         <th scope="col">{ "depth" }</th><th scope="col">{ "node" }</th>
                         <th scope="col">{ "p(node | parent)" }</th><th scope="col">{ "P(node)" }</th>
-                        <th scope="col">{ "threshold" }</th><th scope="col">{ "from" }</th><th scope="col">{ "descent" }</th>
+                        <th scope="col">{ "threshold" }</th><th scope="col">{ "from" }</th>
+                        <th scope="col" title="the most probable other child of the same parent, with p(sibling | parent)">{ "runner-up, p(· | parent)" }</th><th scope="col">{ "descent" }</th>
                     </tr></thead>
                     <tbody>{ for steps }</tbody>
                 </table>
                 </div>
-                <p class="help">{ "The greedy path to its leaf: the rule compares P(node) (cumulative) or p(node | parent) (conditional) with the threshold. Runner-up siblings are not shown: the page keeps only the greedy child of each step once the logits are read." }</p>
+                if let Some(RunnerUpColumn::Note(why)) = &column {
+                    <p class="help" data-testid="runner-up-note">{ note_text(why) }</p>
+                }
+                <p class="help">{ "The greedy path to its leaf: the rule compares P(node) (cumulative) or p(node | parent) (conditional) with the threshold. The runner-up is the most probable other child of the same parent, read from this row's logits when it is opened." }</p>
             </div>
         }
     });

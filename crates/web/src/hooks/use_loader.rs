@@ -2,7 +2,8 @@
 //! The steps are the board's `loading` module (the same code the board's tests drive), over
 //! [`PageSource`]: a chosen file read with `Blob.slice`, or the embedded demo's bytes. This
 //! hook keeps the chosen logits by name, starts a read whenever the board asks for paths
-//! (`Board::wanted_ingest`: once a taxonomy is there, again after a temperature change),
+//! (`Board::wanted_ingest`: once a taxonomy is there, again after a temperature change) and one
+//! row's bytes when the inspector opens it (`Board::wanted_row`),
 //! yields to the browser between chunks so the page stays responsive, and makes Cancel work.
 
 use std::cell::{Cell, RefCell};
@@ -77,6 +78,8 @@ struct Shared {
     /// The current read's ticket: bumping it abandons a read in flight.
     ticket: Cell<u64>,
     running: Cell<bool>,
+    /// The inspected row being read (`(row, generation)`), so it is read once.
+    row_reading: Cell<Option<(usize, usize)>>,
     /// Duration of the last complete read, milliseconds.
     last_read_ms: Cell<Option<f64>>,
 }
@@ -202,6 +205,7 @@ impl Loader {
 
     /// After every render: start reading logits if the board wants paths and no read runs.
     fn pump(&self, board: &BoardState) {
+        self.pump_row(board);
         if self.shared.running.get() {
             return;
         }
@@ -250,6 +254,30 @@ impl Loader {
                 this.shared.replaced.borrow_mut().take();
             }
             this.dispatch(Action::LogitsDone { key, result });
+        });
+    }
+}
+
+impl Loader {
+    /// After every render: read the inspected row's logits if the board wants them (just that
+    /// row's bytes, `loading::read_row`).
+    fn pump_row(&self, board: &BoardState) {
+        let Some(want) = board.wanted_row() else {
+            return;
+        };
+        let key = Some((want.row, want.generation));
+        if self.shared.row_reading.get() == key {
+            return;
+        }
+        self.shared.row_reading.set(key);
+        let plan = self.shared.plans.borrow().get(&want.logits).cloned();
+        let this = self.clone();
+        wasm_bindgen_futures::spawn_local(async move {
+            let action = loading::row_action(plan.as_ref(), &want).await;
+            if this.shared.row_reading.get() == key {
+                this.shared.row_reading.set(None);
+            }
+            this.dispatch(action);
         });
     }
 }
