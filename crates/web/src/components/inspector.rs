@@ -49,6 +49,7 @@ fn num(v: f64) -> String {
 
 #[function_component(Inspector)]
 pub fn inspector(props: &InspectorProps) -> Html {
+    crate::browser::stamp("inspector-render");
     let outcome = use_state(|| None::<Outcome>);
     let stop = use_state(|| None::<usize>);
     let scope = use_state(|| Scope::Any);
@@ -56,6 +57,8 @@ pub fn inspector(props: &InspectorProps) -> Html {
     // Rows where earlier pages began, for "Previous".
     let starts = use_state(Vec::<usize>::new);
     let row = use_state(|| None::<usize>);
+    // After every render of the inspector (the end-to-end tests' frame timing).
+    use_effect(|| crate::browser::stamp("inspector"));
     let (tax, batch) = (&props.taxonomy.0, &props.batch.0);
 
     let filter = RowFilter {
