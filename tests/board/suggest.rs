@@ -29,8 +29,14 @@ fn a_suggestion_moves_the_sliders_to_the_engines_answer_and_marks_the_chart() {
     let direct = suggest::suggest(&a.taxonomy, &a.batch, &before, None, &ask.request())
         .expect("the engine suggests");
     let s = b.current_suggestion().expect("a suggestion").clone();
-    assert_eq!(s.report, direct, "the page asks the engine with its own settings");
-    let chosen = direct.suggestion.as_ref().expect("0.9 is reachable on the demo");
+    assert_eq!(
+        s.report, direct,
+        "the page asks the engine with its own settings"
+    );
+    let chosen = direct
+        .suggestion
+        .as_ref()
+        .expect("0.9 is reachable on the demo");
     assert_eq!(b.settings.thresholds.depths, chosen.thresholds.depths);
     assert_eq!(b.settings.thresholds.object, before.thresholds.object);
     assert_eq!(b.settings.rule, before.rule);
@@ -105,7 +111,9 @@ fn the_fields_refuse_bad_values_by_name_and_a_missing_group_column_is_located() 
         "target precision (--min-precision): expected a number strictly between 0 and 1, found `1.2`"
     );
     assert!(problems[4].contains("expected specificity or reward, found `speed`"));
-    let fine = AskText::from(&Ask::default()).parse().expect("defaults parse");
+    let fine = AskText::from(&Ask::default())
+        .parse()
+        .expect("defaults parse");
     assert_eq!(fine, Ask::default());
 
     let (mut b, _shell) = demo_board();

@@ -18,6 +18,7 @@
 mod a11y;
 mod agree;
 mod big;
+mod frames;
 mod harness;
 mod journey;
 mod nodes;
@@ -42,7 +43,8 @@ const USAGE: &str = "usage: cargo xtask e2e [--no-build] [--filter TEXT]
 
 env: HEDGEROW_CHROMIUM, HEDGEROW_CHROMEDRIVER (default /usr/bin/chromium, /usr/bin/chromedriver)
      HEDGEROW_E2E_HUGE=1   also run the >2 GiB logits test (by hand: generates ~2.2 GB under
-                           target/e2e/, minutes); HEDGEROW_E2E_HUGE_ROWS=N changes its rows";
+                           target/e2e/, minutes); HEDGEROW_E2E_HUGE_ROWS=N changes its rows
+     HEDGEROW_E2E_FRAMES=1 also time interactions on a 1M-row, depth-6 batch (~1 GB)";
 
 /// What every test can use.
 pub struct Ctx {
@@ -105,6 +107,7 @@ fn all_tests() -> Vec<Test> {
     tests.extend(a11y::tests());
     tests.extend(agree::tests());
     tests.extend(big::tests());
+    tests.extend(frames::tests());
     tests
 }
 

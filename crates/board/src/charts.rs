@@ -382,7 +382,10 @@ mod tests {
             .skip(1)
             .filter(|p| p.contains(&ink))
             .filter(|p| {
-                let pts = p.split("points=\"").nth(1).and_then(|r| r.split('"').next());
+                let pts = p
+                    .split("points=\"")
+                    .nth(1)
+                    .and_then(|r| r.split('"').next());
                 pts.is_some_and(|pts| {
                     let v: Vec<&str> = pts.split_whitespace().collect();
                     v.len() == 4 && v.first() == v.last()

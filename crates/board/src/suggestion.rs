@@ -139,16 +139,15 @@ impl Board {
 
     /// Each row's group from a column of the labels CSV of the batch in use.
     fn groups(&self, column: &str) -> Result<Vec<u32>, String> {
-        let labels = match (&self.labels, self.staging_differs()) {
-            (Some(l), false) => l,
-            _ => {
-                return Err(
+        let labels =
+            match (&self.labels, self.staging_differs()) {
+                (Some(l), false) => l,
+                _ => return Err(
                     "a group column needs the labels CSV of the batch in use: the staged files \
                      are not that batch"
                         .into(),
-                )
-            }
-        };
+                ),
+            };
         let name = self
             .active
             .as_ref()
@@ -216,7 +215,11 @@ pub fn guarantee_line(s: &Suggested) -> String {
              Certified on {} calibration rows; its lower bound there is {}.",
             percent(r.confidence),
             r.target,
-            if r.groups.is_some() { " grouped by the group column" } else { "" },
+            if r.groups.is_some() {
+                " grouped by the group column"
+            } else {
+                ""
+            },
             r.rows.calibration,
             show_ratio(r.bound)
         ),
@@ -357,8 +360,11 @@ impl AskText {
     /// flag beside the page's label, with what was expected and found).
     pub fn parse(&self) -> Result<Ask, Vec<String>> {
         let mut problems = Vec::new();
-        let mut number = |label: &str, flag: &str, text: &str, ok: fn(f64) -> bool, want: &str| {
-            match text.trim().parse::<f64>() {
+        let mut number =
+            |label: &str, flag: &str, text: &str, ok: fn(f64) -> bool, want: &str| match text
+                .trim()
+                .parse::<f64>()
+            {
                 Ok(v) if ok(v) => v,
                 _ => {
                     problems.push(format!(
@@ -367,8 +373,7 @@ impl AskText {
                     ));
                     f64::NAN
                 }
-            }
-        };
+            };
         let open = |v: f64| v > 0.0 && v < 1.0;
         let target = number(
             "target precision",

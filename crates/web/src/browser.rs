@@ -127,6 +127,34 @@ pub fn mark(name: &str) {
     }
 }
 
+/// Record when a panel finished drawing (or the board finished applying an action) as
+/// `window.hedgerowFrame[name] = performance.now()`, for the end-to-end tests' frame timing.
+/// One number per name, overwritten: bounded, unlike `performance.mark`'s timeline.
+pub fn stamp(name: &str) {
+    stamp_value(name, now());
+}
+
+fn stamp_value(name: &str, now: f64) {
+    let Some(w) = web_sys::window() else {
+        return;
+    };
+    let key = wasm_bindgen::JsValue::from_str("hedgerowFrame");
+    let table = match js_sys::Reflect::get(&w, &key) {
+        Ok(t) if t.is_object() => t,
+        _ => {
+            let t: wasm_bindgen::JsValue = js_sys::Object::new().into();
+            let _ = js_sys::Reflect::set(&w, &key, &t);
+            t
+        }
+    };
+    let _ = js_sys::Reflect::set(&table, &name.into(), &now.into());
+}
+
+/// Record a duration under `name` in `window.hedgerowFrame` (see [`stamp`]).
+pub fn stamp_since(name: &str, start: f64) {
+    stamp_value(name, now() - start);
+}
+
 /// `devicePixelRatio`, at least 1.
 pub fn pixel_ratio() -> f64 {
     web_sys::window()

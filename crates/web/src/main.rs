@@ -11,6 +11,7 @@
 //! files, stores settings, and renders what the board holds.
 
 mod browser;
+mod canvas;
 mod components;
 mod demo_data;
 mod hooks;

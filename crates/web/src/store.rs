@@ -36,8 +36,10 @@ impl Reducible for BoardState {
     type Action = Action;
 
     fn reduce(self: Rc<Self>, action: Action) -> Rc<Self> {
+        browser::stamp("apply-start");
         let mut board = Rc::unwrap_or_clone(self).0;
         board.apply(action);
+        browser::stamp("apply-end");
         Rc::new(BoardState(board))
     }
 }

@@ -37,13 +37,13 @@ pub fn tests() -> Vec<Test> {
 }
 
 /// A generated batch on disk.
-struct Files {
+pub(super) struct Files {
     dir: PathBuf,
     logits_bytes: u64,
 }
 
 impl Files {
-    fn path(&self, name: &str) -> PathBuf {
+    pub(super) fn path(&self, name: &str) -> PathBuf {
         self.dir.join(name)
     }
 
@@ -59,7 +59,7 @@ impl Files {
 }
 
 /// Generate the batch into `target/e2e/<name>` unless it is there already.
-fn batch(c: &Ctx, name: &str, spec: &Spec) -> anyhow::Result<Files> {
+pub(super) fn batch(c: &Ctx, name: &str, spec: &Spec) -> anyhow::Result<Files> {
     let dir = c.out_dir.join(name);
     if batch::is_current(spec, &dir) {
         c.figure(format!("{name}: reused {}", dir.display()));

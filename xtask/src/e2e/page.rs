@@ -417,7 +417,7 @@ async fn per_depth(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
 }
 
 /// Wait until the highlighted threshold row (chart 1's sweep) is the one of field `id`.
-async fn wait_focused_row(b: &Browser, id: &str) -> anyhow::Result<()> {
+pub(super) async fn wait_focused_row(b: &Browser, id: &str) -> anyhow::Result<()> {
     let deadline = Instant::now() + b.timeout;
     loop {
         let v = b

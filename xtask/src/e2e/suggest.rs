@@ -64,7 +64,10 @@ async fn ask(b: &Browser, target: &str) -> anyhow::Result<()> {
     b.set_value("suggest-holdout", "0.3").await?;
     b.set_value("suggest-seed", "5").await?;
     let before = b
-        .eval("return performance.getEntriesByName('hedgerow:suggested').length;", vec![])
+        .eval(
+            "return performance.getEntriesByName('hedgerow:suggested').length;",
+            vec![],
+        )
         .await?
         .as_u64()
         .unwrap_or(0);
@@ -72,14 +75,20 @@ async fn ask(b: &Browser, target: &str) -> anyhow::Result<()> {
     let deadline = std::time::Instant::now() + b.timeout;
     loop {
         let n = b
-            .eval("return performance.getEntriesByName('hedgerow:suggested').length;", vec![])
+            .eval(
+                "return performance.getEntriesByName('hedgerow:suggested').length;",
+                vec![],
+            )
             .await?
             .as_u64()
             .unwrap_or(0);
         if n > before {
             return Ok(());
         }
-        ensure!(std::time::Instant::now() < deadline, "no suggestion after the click");
+        ensure!(
+            std::time::Instant::now() < deadline,
+            "no suggestion after the click"
+        );
         tokio::time::sleep(std::time::Duration::from_millis(50)).await;
     }
 }
@@ -102,7 +111,9 @@ async fn same_as_cli(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
         ("--labels", g.labels.as_path()),
         (
             "--objectness",
-            g.objectness.as_deref().context("the batch has objectness")?,
+            g.objectness
+                .as_deref()
+                .context("the batch has objectness")?,
         ),
     ];
     fresh_demo(b, c, &c.http_url).await?;
@@ -185,7 +196,10 @@ async fn same_as_cli(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     ensure!(code == 3, "an unreachable target exits 3, not {code}");
     ask(b, "0.9999").await?;
     let line = b.text("suggest-guarantee").await?;
-    let best = format!("{:.4}", report["guaranteeable"].as_f64().unwrap_or(f64::NAN));
+    let best = format!(
+        "{:.4}",
+        report["guaranteeable"].as_f64().unwrap_or(f64::NAN)
+    );
     ensure!(
         line.contains("cannot be guaranteed") && line.contains(&best),
         "the page says {line:?}; the CLI's highest guaranteeable precision is {best}"

@@ -6,8 +6,8 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, VPos};
 
 use super::common::{
-    densify, draw_current_marker, draw_mark, marker_big, marker_small, measure, px, text, text_at, unit,
-    Legend, Rect, Sizes, Swatch,
+    densify, draw_current_marker, draw_mark, marker_big, marker_small, measure, px, text, text_at,
+    unit, Legend, Rect, Sizes, Swatch,
 };
 use super::{
     TradePoint, TradeoffView, AXIS, BACKGROUND, CURRENT, CURVE, GRID, GRID_LIGHT, INK_SOFT, SWEEP,

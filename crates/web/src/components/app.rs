@@ -26,6 +26,7 @@ use crate::store::BoardState;
 
 #[function_component(App)]
 pub fn app() -> Html {
+    browser::stamp("app-render");
     let board = use_reducer(BoardState::restored);
     let loader = use_loader(&board);
     let on_action = use_callback(board.dispatcher(), |action: Action, d| d.dispatch(action));
@@ -40,6 +41,8 @@ pub fn app() -> Html {
             }
         });
     }
+    // After every render of the page (the end-to-end tests' frame timing).
+    use_effect(|| browser::stamp("app"));
     // Settings survive a reload.
     use_effect_with(board.stored(), browser::save_settings);
     // A timing mark the first time numbers are shown (read by the end-to-end tests).

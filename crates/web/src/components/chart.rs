@@ -10,7 +10,6 @@ use hedgerow_board::charts::{
     draw_stops, draw_tradeoff, svg_of, DataTable, StopView, TradeoffView,
 };
 use plotters::prelude::*;
-use plotters_canvas::CanvasBackend;
 use web_sys::HtmlCanvasElement;
 use yew::prelude::*;
 
@@ -47,7 +46,7 @@ fn draw(canvas: &HtmlCanvasElement, view: &ChartView) -> Result<(), String> {
         canvas.set_height(h);
     }
     let backend =
-        CanvasBackend::with_canvas_object(canvas.clone()).ok_or("the canvas has no 2d context")?;
+        crate::canvas::Measured::new(canvas.clone()).ok_or("the canvas has no 2d context")?;
     let area = backend.into_drawing_area();
     match view {
         ChartView::Tradeoff(v) => draw_tradeoff(&area, v),
@@ -63,12 +62,16 @@ pub fn chart(props: &ChartProps) -> Html {
     let width = use_window_width();
     {
         let canvas = canvas.clone();
+        let id = props.id.clone();
         use_effect_with((props.view.clone(), width), move |(view, _)| {
+            let start = crate::browser::now();
             if let Some(c) = canvas.cast::<HtmlCanvasElement>() {
                 if let Err(e) = draw(&c, view) {
                     web_sys::console::warn_1(&format!("chart: {e}").into());
                 }
             }
+            crate::browser::stamp_since(&format!("{id}-ms"), start);
+            crate::browser::stamp(&id);
         });
     }
     let tables = match &*props.view {

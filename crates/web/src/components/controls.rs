@@ -42,6 +42,7 @@ fn rule_help(rule: Rule) -> &'static str {
 
 #[function_component(Controls)]
 pub fn controls(props: &ControlsProps) -> Html {
+    crate::browser::stamp("controls-render");
     let rule = props.settings.rule;
     let select = use_node_ref();
     {

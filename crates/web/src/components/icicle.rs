@@ -10,7 +10,6 @@ use hedgerow_board::charts::{draw_icicle, icicle_view, svg_of, IcicleView};
 use hedgerow_board::nodes::Fate;
 use hedgerow_core::Taxonomy;
 use plotters::prelude::*;
-use plotters_canvas::CanvasBackend;
 use web_sys::HtmlCanvasElement;
 use yew::prelude::*;
 
@@ -48,7 +47,7 @@ fn draw(
         canvas.set_height(h);
     }
     let backend =
-        CanvasBackend::with_canvas_object(canvas.clone()).ok_or("the canvas has no 2d context")?;
+        crate::canvas::Measured::new(canvas.clone()).ok_or("the canvas has no 2d context")?;
     let area = backend.into_drawing_area();
     draw_icicle(&area, view, selected).map_err(|e| e.to_string())?;
     area.present().map_err(|e| e.to_string())
@@ -99,6 +98,7 @@ fn readout(tax: &Taxonomy, fates: &[Fate], v: u32) -> String {
 
 #[function_component(Icicle)]
 pub fn icicle(props: &IcicleProps) -> Html {
+    crate::browser::stamp("icicle-render");
     let canvas = use_node_ref();
     let width = use_window_width();
     let hovered = use_state(|| None::<u32>);
@@ -114,11 +114,14 @@ pub fn icicle(props: &IcicleProps) -> Html {
         use_effect_with(
             ((*view).clone(), props.selected, width),
             move |(view, selected, _)| {
+                let start = crate::browser::now();
                 if let Some(c) = canvas.cast::<HtmlCanvasElement>() {
                     if let Err(e) = draw(&c, view, *selected) {
                         web_sys::console::warn_1(&format!("taxonomy view: {e}").into());
                     }
                 }
+                crate::browser::stamp_since("icicle-ms", start);
+                crate::browser::stamp("icicle");
             },
         );
     }

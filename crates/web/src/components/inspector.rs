@@ -65,6 +65,7 @@ fn note_text(why: &str) -> String {
 
 #[function_component(Inspector)]
 pub fn inspector(props: &InspectorProps) -> Html {
+    crate::browser::stamp("inspector-render");
     let outcome = use_state(|| None::<Outcome>);
     let stop = use_state(|| None::<usize>);
     let scope = use_state(|| Scope::Any);
@@ -72,6 +73,8 @@ pub fn inspector(props: &InspectorProps) -> Html {
     // Rows where earlier pages began, for "Previous".
     let starts = use_state(Vec::<usize>::new);
     let row = props.inspected;
+    // After every render of the inspector (the end-to-end tests' frame timing).
+    use_effect(|| crate::browser::stamp("inspector"));
     let (tax, batch) = (&props.taxonomy.0, &props.batch.0);
 
     let filter = RowFilter {

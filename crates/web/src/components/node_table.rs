@@ -46,7 +46,10 @@ fn count_cell(v: u64) -> Html {
 
 #[function_component(NodeTable)]
 pub fn node_table(props: &NodeTableProps) -> Html {
+    crate::browser::stamp("node-table-render");
     let query = use_state(TableQuery::default);
+    // After every render of the table (the end-to-end tests' frame timing).
+    use_effect(|| browser::stamp("node-table"));
     let tax = &props.taxonomy.0;
     let page = table(tax, &props.report.0, &query);
 

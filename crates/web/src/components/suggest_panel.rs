@@ -59,12 +59,10 @@ pub fn suggest_panel(props: &SuggestPanelProps) -> Html {
             text.set(t);
         })
     };
-    let on_maximize = set(|t, v| t.maximize = v).reform(|e: Event| {
-        e.target_unchecked_into::<HtmlSelectElement>().value()
-    });
-    let on_group = set(|t, v| t.group_column = v).reform(|e: Event| {
-        e.target_unchecked_into::<HtmlSelectElement>().value()
-    });
+    let on_maximize = set(|t, v| t.maximize = v)
+        .reform(|e: Event| e.target_unchecked_into::<HtmlSelectElement>().value());
+    let on_group = set(|t, v| t.group_column = v)
+        .reform(|e: Event| e.target_unchecked_into::<HtmlSelectElement>().value());
     let onsubmit = {
         let text = text.clone();
         let problems = problems.clone();
