@@ -284,9 +284,14 @@ fn the_icicle_lays_out_and_draws_its_cells() {
     let table = view.table(tax);
     assert!(table.rows.len() <= hedgerow_board::charts::MAX_ROWS);
     assert_eq!(table.rows[0][0], "(root)");
-    assert_eq!(table.rows[0][2], fates[tax.root() as usize].labelled.to_string());
+    assert_eq!(
+        table.rows[0][2],
+        fates[tax.root() as usize].labelled.to_string()
+    );
     assert!(
-        table.caption.contains(&format!("of its {} cells", view.cells.len()))
+        table
+            .caption
+            .contains(&format!("of its {} cells", view.cells.len()))
             || view.cells.len() <= hedgerow_board::charts::MAX_ROWS
     );
 
