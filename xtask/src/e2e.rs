@@ -202,6 +202,19 @@ fn build_cli() -> anyhow::Result<PathBuf> {
     Ok(bin)
 }
 
+/// What a test returns (as its error) when it did not run: it is reported as skipped, with the
+/// reason, and counted neither as passed nor as failed.
+#[derive(Debug)]
+pub struct Skipped(pub String);
+
+impl std::fmt::Display for Skipped {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl std::error::Error for Skipped {}
+
 async fn run_tests(tests: &[Test], ctx: &Ctx) -> anyhow::Result<(usize, usize)> {
     let launched = Instant::now();
     let browser = Browser::launch(&Config::from_env()).await?;
@@ -211,13 +224,17 @@ async fn run_tests(tests: &[Test], ctx: &Ctx) -> anyhow::Result<(usize, usize)> 
         ctx.http_url,
         ctx.file_url
     );
-    let (mut passed, mut failed) = (0, 0);
+    let (mut passed, mut failed, mut skipped) = (0, 0, 0);
     for test in tests {
         let t = Instant::now();
         match (test.run)(&browser, ctx).await {
             Ok(()) => {
                 passed += 1;
                 eprintln!("  ok    {} ({:.2}s)", test.name, t.elapsed().as_secs_f64());
+            }
+            Err(e) if e.downcast_ref::<Skipped>().is_some() => {
+                skipped += 1;
+                eprintln!("  skip  {}: {e}", test.name);
             }
             Err(e) => {
                 failed += 1;
@@ -234,6 +251,9 @@ async fn run_tests(tests: &[Test], ctx: &Ctx) -> anyhow::Result<(usize, usize)> 
         }
     }
     browser.close().await?;
+    if skipped > 0 {
+        eprintln!("e2e: {skipped} skipped (not counted as passed)");
+    }
     Ok((passed, failed))
 }
 

@@ -287,10 +287,11 @@ const MILLION: Spec = Spec {
 
 async fn million(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     if std::env::var("HEDGEROW_E2E_FRAMES").as_deref() != Ok("1") {
-        eprintln!(
-            "        skipped: set HEDGEROW_E2E_FRAMES=1 to run it (generates ~1 GB under target/e2e/, minutes)"
-        );
-        return Ok(());
+        return Err(super::Skipped(
+            "set HEDGEROW_E2E_FRAMES=1 to run it (generates ~1 GB under target/e2e/, minutes)"
+                .into(),
+        )
+        .into());
     }
     let f: Files = batch(c, "batch-1m", &MILLION)?;
     let demo = fresh_demo(b, c, &c.http_url).await?;
