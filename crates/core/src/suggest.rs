@@ -183,6 +183,58 @@ pub struct Report {
     pub guaranteeable: f64,
 }
 
+/// The indices of the candidates on their precision/objective front on the optimisation part
+/// (`tallies` there), cautious first: a point is kept when its precision is above that of every bolder point (one with more
+/// of the objective), so the kept points' precision falls as the objective grows. The most
+/// cautious point is always first when nothing bolder is as precise.
+pub fn front<'a>(
+    tallies: impl IntoIterator<Item = &'a Tally>,
+    maximize: Maximize,
+    policy: crate::settings::Policy,
+) -> Vec<usize> {
+    let objective = |t: &Tally| match maximize {
+        Maximize::Specificity => t.gain,
+        Maximize::Reward => t.reward,
+    };
+    let tallies: Vec<&Tally> = tallies.into_iter().collect();
+    let mut order: Vec<usize> = (0..tallies.len()).collect();
+    // Boldest first (ties: the later candidate first), then keep a running best precision.
+    order.sort_by(|&a, &b| {
+        objective(tallies[b])
+            .total_cmp(&objective(tallies[a]))
+            .then(b.cmp(&a))
+    });
+    let mut kept = Vec::new();
+    let mut best = f64::NEG_INFINITY;
+    for i in order {
+        let p = tallies[i].precision(policy).unwrap_or(0.0);
+        if p > best {
+            best = p;
+            kept.push(i);
+        }
+    }
+    kept.reverse();
+    kept
+}
+
+/// Shared thresholds among the candidates: 1, 1 − 1/256, …, 0 for every depth, with their counts
+/// on the optimisation and the calibration parts (walks with every threshold at 1).
+pub const SHARED_CANDIDATES: u32 = 256;
+
+fn shared_candidates(mut opt: Walk, mut cal: Walk) -> Vec<(Vec<f64>, Tally, Tally)> {
+    let width = opt.thresholds().len();
+    (0..=SHARED_CANDIDATES)
+        .map(|j| {
+            let t = 1.0 - f64::from(j) / f64::from(SHARED_CANDIDATES);
+            for d in 1..=width {
+                opt.lower(d, t);
+                cal.lower(d, t);
+            }
+            (vec![t; width], opt.tally(), cal.tally())
+        })
+        .collect()
+}
+
 pub const METHOD: &str = "Pareto Testing (Laufer-Goldshtein et al., ICLR 2023): a greedy path of per-depth settings on the optimisation part; Learn-then-Test (Angelopoulos et al. 2021): fixed-sequence testing along it on the calibration part with exact binomial (Clopper-Pearson) p-values";
 
 fn counted(t: &Tally, settings: &Settings) -> Counted {
@@ -249,17 +301,37 @@ pub fn suggest(
     let policy = settings.policy;
 
     let mut opt_walk = Walk::new(tax, &opt, settings);
+    let opt_fresh = opt_walk.clone();
     let path = pareto_path(&mut opt_walk, request.maximize, policy);
     let mut cal_walk = Walk::new(tax, &cal, settings);
+    let cal_fresh = cal_walk.clone();
     let shared = shared_baseline(cal_walk.clone(), settings, request);
     let on_cal = replay(&mut cal_walk, &path);
+    // The candidates: the greedy path's settings and the shared thresholds on a fixed grid,
+    // each with its counts on both parts. Only their front on the optimisation part is tested
+    // (a candidate a bolder one beats on precision too is dropped), cautious first, so the test
+    // does not stop at a dip the greedy path passed through, and the suggestion is never behind
+    // a shared threshold on the optimisation part.
+    let mut candidates: Vec<(Vec<f64>, Tally, Tally)> = path
+        .iter()
+        .zip(&on_cal)
+        .map(|(p, c)| (p.thresholds.clone(), p.tally.clone(), c.clone()))
+        .collect();
+    candidates.extend(shared_candidates(opt_fresh, cal_fresh));
+    let front = front(
+        candidates.iter().map(|(_, o, _)| o),
+        request.maximize,
+        policy,
+    );
     let (last, tested) = fixed_sequence(
-        on_cal.iter().map(|t| t.successes(policy)),
+        front.iter().map(|&i| candidates[i].2.successes(policy)),
         request.target,
         delta,
     );
-    let guaranteeable = on_cal
+    let last = last.map(|j| front[j]);
+    let guaranteeable = front
         .first()
+        .map(|&i| &candidates[i].2)
         .map(|t| t.successes(policy))
         .and_then(|(k, n)| clopper_pearson_lower(k, n, request.confidence))
         .unwrap_or(0.0);
@@ -283,15 +355,14 @@ pub fn suggest(
             thresholds: s.thresholds,
         }
     };
-    let pooled: Vec<Tally> = path
+    let pooled: Vec<Tally> = candidates
         .iter()
-        .zip(&on_cal)
-        .map(|(p, c)| p.tally.plus(c))
+        .map(|(_, o, c)| o.clone().plus(c))
         .collect();
     let suggestion = last.map(|i| {
         choice(
-            with_depths(path[i].thresholds.clone()),
-            &on_cal[i],
+            with_depths(candidates[i].0.clone()),
+            &candidates[i].2,
             &pooled[i],
         )
     });
@@ -310,8 +381,8 @@ pub fn suggest(
     }
     let in_sample = best.map(|i| {
         choice(
-            with_depths(path[i].thresholds.clone()),
-            &on_cal[i],
+            with_depths(candidates[i].0.clone()),
+            &candidates[i].2,
             &pooled[i],
         )
     });
