@@ -29,7 +29,7 @@ use plotters::style::RGBColor;
 pub use icicle::{draw_icicle, icicle_view, IcicleCell, IcicleView};
 pub use stops::draw_stops;
 pub use table::{DataTable, MAX_ROWS};
-pub use tradeoff::draw_tradeoff;
+pub use tradeoff::{draw_tradeoff, draw_tradeoff_framed, TradeoffFrame, LABELLED_TENTHS};
 
 /// A chart as SVG text, `w` × `h` pixels: the same drawing function on plotters' SVG backend
 /// (the page's "Download SVG"). `None` if drawing failed.
@@ -73,6 +73,8 @@ pub const WRONG: RGBColor = RGBColor(0xB0, 0x41, 0x2E);
 pub const CURVE: RGBColor = RGBColor(0x34, 0x42, 0x6E);
 /// One depth's sweep: orange, `#E8822A`.
 pub const SWEEP: RGBColor = RGBColor(0xE8, 0x82, 0x2A);
+/// The sweep's tenth labels: a darker orange that reads on white, `#A3520F`.
+pub const SWEEP_TEXT: RGBColor = RGBColor(0xA3, 0x52, 0x0F);
 /// The current operating point (inside a white ring with a dark outline): plum, `#A3367D`.
 pub const CURRENT: RGBColor = RGBColor(0xA3, 0x36, 0x7D);
 /// Text: near-black, `#23272E`.

@@ -106,6 +106,11 @@ pub struct Board {
     /// The last suggestion asked for (see `crate::suggestion`), and why the last ask failed.
     pub suggestion: Option<Rc<crate::suggestion::Suggested>>,
     pub suggestion_error: Option<String>,
+    /// The setting compared against (see `crate::baseline`), the transitions to the current
+    /// settings, and why the last baseline could not be set.
+    pub baseline: Option<Rc<crate::baseline::Baseline>>,
+    pub comparison: Option<Rc<crate::baseline::Comparison>>,
+    pub baseline_error: Option<String>,
 }
 
 impl Board {
@@ -261,6 +266,7 @@ impl Board {
             }
             Action::SetNodeThreshold { id, value } => self.set_node(&id, value),
             Action::Suggest(ask) => self.suggest(ask),
+            Action::Baseline(b) => self.baseline_action(b),
             Action::Reset => {
                 self.settings.thresholds.nodes.clear();
                 self.apply(Action::Restore(Stored::default()));

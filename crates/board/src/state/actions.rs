@@ -173,6 +173,9 @@ pub enum Action {
     /// Ask for depth thresholds that hold a precision target with a guarantee
     /// (`crate::suggestion`); the depth sliders move to the suggestion.
     Suggest(crate::suggestion::Ask),
+    /// Pin the current settings or load a profile as the baseline to compare against, or
+    /// clear it (`crate::baseline`).
+    Baseline(crate::baseline::BaselineAction),
     /// The depth whose control the user is on: chart 1 shows its sweep.
     Focus(usize),
     Restore(Stored),

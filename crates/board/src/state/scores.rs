@@ -157,6 +157,10 @@ impl Board {
             self.node_report = Some(Rc::new(tracker.report(&a.taxonomy, &self.settings)));
             self.node_fates = Some(Rc::new(tracker.fates(&a.taxonomy)));
         }
+        drop((drag, nodes));
+        if self.baseline.is_some() {
+            self.compare_baseline();
+        }
     }
 
     fn full_rescore(
@@ -198,8 +202,17 @@ impl Board {
             rule: self.settings.rule.as_str().to_string(),
             marks: self
                 .current_suggestion()
-                .map(|s| s.marks.iter().map(|(l, p)| (l.to_string(), *p)).collect())
-                .unwrap_or_default(),
+                .map(|s| s.marks.iter().map(|(l, p)| (l.to_string(), *p)).collect::<Vec<_>>())
+                .unwrap_or_default()
+                .into_iter()
+                .chain(
+                    self.baseline
+                        .as_ref()
+                        .filter(|b| b.generation == self.generation)
+                        .and_then(|b| b.point())
+                        .map(|p| (crate::baseline::MARK_LABEL.to_string(), p)),
+                )
+                .collect(),
         }
     }
 
