@@ -54,12 +54,21 @@ fn a_pinned_setting_is_compared_row_by_row_with_the_current_one() {
     let a = b.active.clone().expect("active");
     assert_eq!(base.metrics, evaluate(&a.taxonomy, &a.batch, &pinned));
     let c = b.comparison.clone().expect("compared");
-    assert!(c.transitions().is_empty(), "the same setting changes no row");
+    assert!(
+        c.transitions().is_empty(),
+        "the same setting changes no row"
+    );
     assert_eq!(c.unchanged(), a.batch.len() as u64);
 
     for (action, what) in [
         (Action::SetAllDepths(0.7), "all depths 0.7"),
-        (Action::SetDepth { depth: 2, value: 0.3 }, "depth 2 at 0.3"),
+        (
+            Action::SetDepth {
+                depth: 2,
+                value: 0.3,
+            },
+            "depth 2 at 0.3",
+        ),
         (Action::SetObject(0.8), "object 0.8"),
         (
             Action::SetNodeThreshold {
@@ -68,11 +77,18 @@ fn a_pinned_setting_is_compared_row_by_row_with_the_current_one() {
             },
             "glass at 0.9",
         ),
-        (Action::SetRule(hedgerow_core::Rule::Conditional), "conditional"),
+        (
+            Action::SetRule(hedgerow_core::Rule::Conditional),
+            "conditional",
+        ),
     ] {
         b.apply(action);
         check_transitions(&b, what);
-        assert_eq!(b.baseline.as_ref().expect("kept").settings, pinned, "{what}");
+        assert_eq!(
+            b.baseline.as_ref().expect("kept").settings,
+            pinned,
+            "{what}"
+        );
     }
     let c = b.comparison.clone().expect("compared");
     let t = *c.transitions().first().expect("some row changed");
@@ -180,5 +196,9 @@ fn the_hit_test_finds_the_nearest_drawn_curve_point() {
         }
         assert!((0.0..=1.0).contains(&tp.threshold));
     }
-    assert_eq!(frame.nearest((-500, -500), reach), None, "far off the curve");
+    assert_eq!(
+        frame.nearest((-500, -500), reach),
+        None,
+        "far off the curve"
+    );
 }

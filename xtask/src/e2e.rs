@@ -18,6 +18,7 @@
 mod a11y;
 mod agree;
 mod big;
+mod compare;
 mod harness;
 mod journey;
 mod nodes;
@@ -102,6 +103,7 @@ fn all_tests() -> Vec<Test> {
     tests.extend(nodes::tests());
     tests.extend(privacy::tests());
     tests.extend(suggest::tests());
+    tests.extend(compare::tests());
     tests.extend(a11y::tests());
     tests.extend(agree::tests());
     tests.extend(big::tests());

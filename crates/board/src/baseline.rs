@@ -10,7 +10,9 @@
 use std::rc::Rc;
 
 use hedgerow_core::taxonomy::NONE;
-use hedgerow_core::{evaluate, Batch, Decision, Decoder, Metrics, Outcome, Profile, Settings, Taxonomy};
+use hedgerow_core::{
+    evaluate, Batch, Decision, Decoder, Metrics, Outcome, Profile, Settings, Taxonomy,
+};
 
 use crate::charts::TradePoint;
 use crate::state::Board;
@@ -37,7 +39,10 @@ pub enum BaselineAction {
     /// The current settings become the baseline.
     Pin,
     /// A profile file as the baseline (the current settings stay as they are).
-    Load { name: String, bytes: Rc<Vec<u8>> },
+    Load {
+        name: String,
+        bytes: Rc<Vec<u8>>,
+    },
     Clear,
 }
 
@@ -170,7 +175,12 @@ impl Comparison {
 }
 
 /// Counts the transitions from `baseline` to `settings` in one pass.
-pub fn compare(tax: &Taxonomy, batch: &Batch, baseline: &Baseline, settings: &Settings) -> Comparison {
+pub fn compare(
+    tax: &Taxonomy,
+    batch: &Batch,
+    baseline: &Baseline,
+    settings: &Settings,
+) -> Comparison {
     let mut counts = [[0u64; 5]; 5];
     each_outcome(tax, batch, settings, |r, o| {
         let a = baseline.outcomes.get(r).copied().unwrap_or(0) as usize;
@@ -297,6 +307,13 @@ impl Board {
     pub fn transition_rows(&self, from: Outcome, to: Outcome) -> Option<Vec<u32>> {
         let a = self.active.as_ref()?;
         let b = self.baseline.as_ref()?;
-        Some(transition_rows(&a.taxonomy, &a.batch, b, &self.settings, from, to))
+        Some(transition_rows(
+            &a.taxonomy,
+            &a.batch,
+            b,
+            &self.settings,
+            from,
+            to,
+        ))
     }
 }

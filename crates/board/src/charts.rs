@@ -356,6 +356,18 @@ mod tests {
             .filter(|c| c.contains(&hex(SWEEP)))
             .count();
         assert_eq!(sweep_dots, 11 + 1);
+        // A few tenths are labelled, in the sweep's text colour, none twice.
+        let tenth_texts: Vec<&str> = svg
+            .split("<text")
+            .skip(1)
+            .filter(|t| t.contains(&hex(SWEEP_TEXT)))
+            .filter_map(|t| t.split(">\n").nth(1)?.split('\n').next())
+            .collect();
+        assert!(
+            (2..=LABELLED_TENTHS.len()).contains(&tenth_texts.len()),
+            "{tenth_texts:?}"
+        );
+        assert!(tenth_texts.iter().all(|t| t.starts_with("0.")));
         // Ticks read 0.0 .. 1.0 on x and reach 1.0 on y.
         for tick in ["0.0", "0.5", "1.0"] {
             assert!(has_text(&svg, tick), "missing tick {tick}");
@@ -384,7 +396,10 @@ mod tests {
             .skip(1)
             .filter(|p| p.contains(&ink))
             .filter(|p| {
-                let pts = p.split("points=\"").nth(1).and_then(|r| r.split('"').next());
+                let pts = p
+                    .split("points=\"")
+                    .nth(1)
+                    .and_then(|r| r.split('"').next());
                 pts.is_some_and(|pts| {
                     let v: Vec<&str> = pts.split_whitespace().collect();
                     v.len() == 4 && v.first() == v.last()

@@ -6,8 +6,8 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, VPos};
 
 use super::common::{
-    densify, draw_current_marker, draw_mark, marker_big, marker_small, measure, px, text, text_at, unit,
-    Legend, Rect, Sizes, Swatch,
+    densify, draw_current_marker, draw_mark, marker_big, marker_small, measure, px, text, text_at,
+    unit, Legend, Rect, Sizes, Swatch,
 };
 use super::{
     TradePoint, TradeoffView, AXIS, BACKGROUND, CURRENT, CURVE, GRID, GRID_LIGHT, INK_SOFT, SWEEP,
@@ -242,7 +242,11 @@ pub fn draw_tradeoff_framed<B: DrawingBackend>(
     // Everything drawn so far, as pixels, for placing the label and the legend where they
     // cover the least.
     let curve_px: Vec<(i32, i32)> = curve.iter().map(to_px).collect();
-    frame.points = curve_px.iter().copied().zip(curve.iter().copied()).collect();
+    frame.points = curve_px
+        .iter()
+        .copied()
+        .zip(curve.iter().copied())
+        .collect();
     let mut occupied = densify(&curve_px, s.font * 0.4);
     // Each labelled tenth beside its dot, skipped when it would sit on an earlier one.
     let tenth_style = text(s.small * 0.9).color(&SWEEP_TEXT);

@@ -202,7 +202,12 @@ impl Board {
             rule: self.settings.rule.as_str().to_string(),
             marks: self
                 .current_suggestion()
-                .map(|s| s.marks.iter().map(|(l, p)| (l.to_string(), *p)).collect::<Vec<_>>())
+                .map(|s| {
+                    s.marks
+                        .iter()
+                        .map(|(l, p)| (l.to_string(), *p))
+                        .collect::<Vec<_>>()
+                })
                 .unwrap_or_default()
                 .into_iter()
                 .chain(

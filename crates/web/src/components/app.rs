@@ -82,7 +82,10 @@ pub fn app() -> Html {
     let transition_rows = {
         let board = board.clone();
         use_memo(
-            (*transition, board.comparison.clone().map(|c| Rc::as_ptr(&c) as usize)),
+            (
+                *transition,
+                board.comparison.clone().map(|c| Rc::as_ptr(&c) as usize),
+            ),
             move |(t, _)| {
                 let (from, to) = (*t)?;
                 let rows = board.transition_rows(from, to)?;

@@ -5,7 +5,7 @@
 
 use std::rc::Rc;
 
-use hedgerow_board::baseline::{delta, delta_count, BaselineAction, Baseline, Comparison};
+use hedgerow_board::baseline::{delta, delta_count, Baseline, BaselineAction, Comparison};
 use hedgerow_board::state::{show_precision_interval, show_ratio, thin_thousands, Action};
 use hedgerow_core::{Metrics, Outcome};
 use web_sys::{DragEvent, File, HtmlInputElement};
@@ -105,7 +105,11 @@ pub fn compare_panel(props: &ComparePanelProps) -> Html {
             // must not see it.
             e.prevent_default();
             e.stop_propagation();
-            if let Some(f) = e.data_transfer().and_then(|d| d.files()).and_then(|l| l.item(0)) {
+            if let Some(f) = e
+                .data_transfer()
+                .and_then(|d| d.files())
+                .and_then(|l| l.item(0))
+            {
                 load(f, on_action.clone());
             }
         })
