@@ -164,7 +164,7 @@ impl Comparison {
                 rows: self.counts[a][b],
             })
             .collect();
-        out.sort_by(|x, y| y.rows.cmp(&x.rows));
+        out.sort_by_key(|t| std::cmp::Reverse(t.rows));
         out
     }
 

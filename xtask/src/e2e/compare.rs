@@ -126,6 +126,16 @@ async fn wait_for(b: &Browser, id: &str) -> anyhow::Result<()> {
     Ok(())
 }
 
+/// Scrolls `id` to the top of the window, for a screenshot.
+async fn show(b: &Browser, id: &str) -> anyhow::Result<()> {
+    b.eval(
+        "document.querySelector(`[data-testid=\"${arguments[0]}\"]`).scrollIntoView();",
+        vec![id.into()],
+    )
+    .await?;
+    Ok(())
+}
+
 /// The read-out curve point's threshold, if any.
 async fn read_out(b: &Browser) -> anyhow::Result<Option<String>> {
     let v = b
@@ -215,6 +225,7 @@ async fn compare_and_touch(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
         shown == want_ids,
         "transitions: the page shows {shown:?}, the CLI's rows give {want_ids:?}"
     );
+    show(b, "compare-panel").await?;
     screenshot(b, c, "compare-panel.png").await?;
 
     // The largest transition opens in the inspector with its rows.
@@ -241,6 +252,7 @@ async fn compare_and_touch(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
         !listed.is_empty() && listed == first,
         "{x} → {y}: the inspector lists {listed:?}, the CLI's first rows are {first:?}"
     );
+    show(b, "inspect-transition").await?;
     screenshot(b, c, "compare-inspector.png").await?;
 
     // Hover the curve: move over the chart until a point is read out, then click there.
@@ -267,6 +279,7 @@ async fn compare_and_touch(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
         readout.contains("precision") && readout.contains("specificity"),
         "{readout:?}"
     );
+    show(b, "chart-tradeoff").await?;
     screenshot(b, c, "compare-readout.png").await?;
     b.eval(
         r#"const c = document.querySelector('[data-testid=chart-tradeoff]');
