@@ -3,7 +3,8 @@
 //! `target/e2e/compare/`): the pinned setting and a changed one side by side equal
 //! `hedgerow evaluate --json` for each; each transition's count equals the rows whose outcome
 //! differs in `hedgerow decode --format jsonl` under the two settings; a transition opens its
-//! rows in the inspector; hovering the curve reads out a point and a click adopts its
+//! rows in the inspector; a profile written by `hedgerow profile` loads as the baseline without
+//! touching the current settings; hovering the curve reads out a point and a click adopts its
 //! threshold (the headline equals `hedgerow evaluate --thresholds T`), as does the keyboard; the
 //! chart downloads as PNG. Screenshots: `target/e2e/compare-*.png`.
 
@@ -254,6 +255,50 @@ async fn compare_and_touch(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     );
     show(b, "inspect-transition").await?;
     screenshot(b, c, "compare-inspector.png").await?;
+
+    // A profile written by `hedgerow profile` as the baseline: scored as the CLI scores it, the
+    // current settings (the headline) untouched, the transitions recounted.
+    let prof_args = ["--rule", "conditional", "--thresholds", "0.6,0.4"];
+    let profile = dir.join("baseline-profile.json");
+    let mut args = prof_args.to_vec();
+    let out = profile.to_string_lossy().into_owned();
+    args.extend(["--out", out.as_str()]);
+    run_cli(c, "profile", &f, &args)?;
+    b.upload_file("baseline-input", &profile).await?;
+    let deadline = Instant::now() + b.timeout;
+    while !b
+        .text("compare-name")
+        .await?
+        .contains("baseline-profile.json")
+    {
+        ensure!(
+            Instant::now() < deadline,
+            "the profile did not become the baseline"
+        );
+        tokio::time::sleep(Duration::from_millis(50)).await;
+    }
+    expect_headline(
+        b,
+        &evaluate_files(c, &f, &now_args)?,
+        "the current settings stay",
+    )
+    .await?;
+    check_column(b, "baseline", &metrics(c, &f, &prof_args)?).await?;
+    check_column(b, "current", &metrics(c, &f, &now_args)?).await?;
+    let was = outcomes(c, &f, &prof_args)?;
+    let changed = was.iter().zip(&now).filter(|(x, y)| x != y).count() as u64;
+    let shown: u64 = b
+        .eval(
+            "return [...document.querySelectorAll('[data-testid^=transition-]')].filter(e => e.dataset.value).reduce((s, e) => s + Number(e.dataset.value), 0);",
+            vec![],
+        )
+        .await?
+        .as_u64()
+        .context("a sum")?;
+    ensure!(
+        shown == changed,
+        "against the profile: the page's transitions add up to {shown}, the CLI's rows that change are {changed}"
+    );
 
     // Hover the curve: move over the chart until a point is read out, then click there.
     let mut hit = None;
