@@ -69,6 +69,21 @@ fn a_pinned_setting_is_compared_row_by_row_with_the_current_one() {
             },
             "depth 2 at 0.3",
         ),
+        // The same depth again: the drag path, which moves only the rows that flip.
+        (
+            Action::SetDepth {
+                depth: 2,
+                value: 0.75,
+            },
+            "depth 2 dragged to 0.75",
+        ),
+        (
+            Action::SetDepth {
+                depth: 2,
+                value: 0.1,
+            },
+            "depth 2 dragged to 0.1",
+        ),
         (Action::SetObject(0.8), "object 0.8"),
         (
             Action::SetNodeThreshold {
@@ -80,6 +95,20 @@ fn a_pinned_setting_is_compared_row_by_row_with_the_current_one() {
         (
             Action::SetRule(hedgerow_core::Rule::Conditional),
             "conditional",
+        ),
+        (
+            Action::SetDepth {
+                depth: 3,
+                value: 0.6,
+            },
+            "depth 3 at 0.6",
+        ),
+        (
+            Action::SetDepth {
+                depth: 3,
+                value: 0.2,
+            },
+            "depth 3 dragged to 0.2",
         ),
     ] {
         b.apply(action);

@@ -152,7 +152,47 @@ pub struct Comparison {
     pub counts: [[u64; 5]; 5],
 }
 
+/// The outcome of row `r` when its descent stops at depth `s` (so it predicts).
+fn outcome_at_stop(tax: &Taxonomy, batch: &Batch, r: usize, s: usize) -> Outcome {
+    let leaf = batch.paths().leaf(r);
+    let decoder = Decoder {
+        tax,
+        rule: hedgerow_core::Rule::Cumulative,
+        thresholds: &[],
+        objectness: false,
+    };
+    let decision = Decision {
+        predicted: Some(tax.ancestor(leaf, s)),
+        depth: s,
+        probability: f64::NAN,
+    };
+    decoder.outcome(&decision, leaf, batch.label(r))
+}
+
 impl Comparison {
+    /// Row `r` moved its stop from depth `from` to `to` (a depth's threshold dragged, as
+    /// `DepthDrag::set_reporting` reports it): move it between the transitions, so a drag
+    /// costs the rows that flip, not a pass over the batch.
+    pub fn shift(
+        &mut self,
+        baseline: &Baseline,
+        tax: &Taxonomy,
+        batch: &Batch,
+        r: usize,
+        from: usize,
+        to: usize,
+    ) {
+        let a = baseline.outcomes.get(r).copied().unwrap_or(0) as usize;
+        let (was, now) = (
+            code(outcome_at_stop(tax, batch, r, from)) as usize,
+            code(outcome_at_stop(tax, batch, r, to)) as usize,
+        );
+        if let Some(row) = self.counts.get_mut(a) {
+            row[was] = row[was].saturating_sub(1);
+            row[now] += 1;
+        }
+    }
+
     /// The rows that changed outcome, most rows first (then in table order).
     pub fn transitions(&self) -> Vec<Transition> {
         let mut out: Vec<Transition> = (0..5)
