@@ -5,6 +5,7 @@
 //! engine, profiles and stored settings, `.npz` bundles.
 
 mod bad_input;
+mod baseline;
 #[path = "../common/catalogue.rs"]
 mod catalogue;
 mod nodes;

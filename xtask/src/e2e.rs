@@ -18,6 +18,7 @@
 mod a11y;
 mod agree;
 mod big;
+mod compare;
 mod frames;
 mod harness;
 mod journey;
@@ -104,6 +105,7 @@ fn all_tests() -> Vec<Test> {
     tests.extend(nodes::tests());
     tests.extend(privacy::tests());
     tests.extend(suggest::tests());
+    tests.extend(compare::tests());
     tests.extend(a11y::tests());
     tests.extend(agree::tests());
     tests.extend(big::tests());

@@ -29,7 +29,7 @@ use plotters::style::RGBColor;
 pub use icicle::{draw_icicle, icicle_view, IcicleCell, IcicleView};
 pub use stops::draw_stops;
 pub use table::{DataTable, MAX_ROWS};
-pub use tradeoff::draw_tradeoff;
+pub use tradeoff::{draw_tradeoff, draw_tradeoff_framed, TradeoffFrame, LABELLED_TENTHS};
 
 /// A chart as SVG text, `w` × `h` pixels: the same drawing function on plotters' SVG backend
 /// (the page's "Download SVG"). `None` if drawing failed.
@@ -73,6 +73,8 @@ pub const WRONG: RGBColor = RGBColor(0xB0, 0x41, 0x2E);
 pub const CURVE: RGBColor = RGBColor(0x34, 0x42, 0x6E);
 /// One depth's sweep: orange, `#E8822A`.
 pub const SWEEP: RGBColor = RGBColor(0xE8, 0x82, 0x2A);
+/// The sweep's tenth labels: a darker orange that reads on white, `#A3520F`.
+pub const SWEEP_TEXT: RGBColor = RGBColor(0xA3, 0x52, 0x0F);
 /// The current operating point (inside a white ring with a dark outline): plum, `#A3367D`.
 pub const CURRENT: RGBColor = RGBColor(0xA3, 0x36, 0x7D);
 /// Text: near-black, `#23272E`.
@@ -354,6 +356,18 @@ mod tests {
             .filter(|c| c.contains(&hex(SWEEP)))
             .count();
         assert_eq!(sweep_dots, 11 + 1);
+        // A few tenths are labelled, in the sweep's text colour, none twice.
+        let tenth_texts: Vec<&str> = svg
+            .split("<text")
+            .skip(1)
+            .filter(|t| t.contains(&hex(SWEEP_TEXT)))
+            .filter_map(|t| t.split(">\n").nth(1)?.split('\n').next())
+            .collect();
+        assert!(
+            (2..=LABELLED_TENTHS.len()).contains(&tenth_texts.len()),
+            "{tenth_texts:?}"
+        );
+        assert!(tenth_texts.iter().all(|t| t.starts_with("0.")));
         // Ticks read 0.0 .. 1.0 on x and reach 1.0 on y.
         for tick in ["0.0", "0.5", "1.0"] {
             assert!(has_text(&svg, tick), "missing tick {tick}");

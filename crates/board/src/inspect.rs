@@ -20,6 +20,9 @@ pub struct RowFilter {
     pub predicted: Option<u32>,
     /// The label is this node or below it (the root: any labelled row).
     pub label_under: Option<u32>,
+    /// Only these rows (ascending), e.g. the rows of one transition between a baseline and
+    /// the current settings (`crate::baseline::transition_rows`).
+    pub rows: Option<std::rc::Rc<Vec<u32>>>,
 }
 
 /// One listed row.
@@ -65,36 +68,54 @@ pub fn list_rows(
     count: usize,
 ) -> RowPage {
     let thresholds = settings.thresholds.resolve(tax);
-    let mut rows = Vec::new();
-    let mut r = start;
-    let end = batch.len().min(start.saturating_add(SCAN_LIMIT));
-    while r < end && rows.len() < count {
+    let line = |r: usize| -> Option<RowLine> {
         let g = batch.label(r);
         let label_ok = filter.label_under.is_none_or(|v| {
             g != NONE
                 && (v == tax.root()
                     || (tax.depth(g) >= tax.depth(v) && tax.ancestor(g, tax.depth(v)) == v))
         });
-        if label_ok {
-            let d = decode_row(tax, batch, settings, &thresholds, r);
-            let depth = d.predicted.map(|_| d.depth);
-            if filter.outcome.is_none_or(|o| o == d.outcome)
-                && filter.stop_depth.is_none_or(|s| depth == Some(s))
-                && filter.predicted.is_none_or(|v| d.predicted == Some(v))
-            {
-                rows.push(RowLine {
-                    row: r,
-                    label: if g == NONE {
-                        String::new()
-                    } else {
-                        tax.id(g).to_string()
-                    },
-                    predicted: shown_node(tax, d.predicted),
-                    depth,
-                    outcome: d.outcome,
-                });
-            }
+        if !label_ok {
+            return None;
         }
+        let d = decode_row(tax, batch, settings, &thresholds, r);
+        let depth = d.predicted.map(|_| d.depth);
+        let pass = filter.outcome.is_none_or(|o| o == d.outcome)
+            && filter.stop_depth.is_none_or(|s| depth == Some(s))
+            && filter.predicted.is_none_or(|v| d.predicted == Some(v));
+        pass.then(|| RowLine {
+            row: r,
+            label: if g == NONE {
+                String::new()
+            } else {
+                tax.id(g).to_string()
+            },
+            predicted: shown_node(tax, d.predicted),
+            depth,
+            outcome: d.outcome,
+        })
+    };
+    let mut rows = Vec::new();
+    if let Some(list) = &filter.rows {
+        // A list of rows: scan it from the first listed row at or after `start`.
+        let mut i = list.partition_point(|&x| (x as usize) < start);
+        let end = list.len().min(i.saturating_add(SCAN_LIMIT));
+        while i < end && rows.len() < count {
+            let r = list[i] as usize;
+            if r < batch.len() {
+                rows.extend(line(r));
+            }
+            i += 1;
+        }
+        return RowPage {
+            rows,
+            next: list.get(i).map(|&x| x as usize),
+        };
+    }
+    let mut r = start;
+    let end = batch.len().min(start.saturating_add(SCAN_LIMIT));
+    while r < end && rows.len() < count {
+        rows.extend(line(r));
         r += 1;
     }
     RowPage {

@@ -111,6 +111,11 @@ pub struct Board {
     pub suggestion_error: Option<String>,
     /// The row open in the inspector and its runner-up siblings (see `crate::runner_up`).
     pub inspected: Option<crate::runner_up::Inspected>,
+    /// The setting compared against (see `crate::baseline`), the transitions to the current
+    /// settings, and why the last baseline could not be set.
+    pub baseline: Option<Rc<crate::baseline::Baseline>>,
+    pub comparison: Option<Rc<crate::baseline::Comparison>>,
+    pub baseline_error: Option<String>,
 }
 
 impl Board {
@@ -272,6 +277,7 @@ impl Board {
                 generation,
                 result,
             } => self.row_logits(row, generation, result),
+            Action::Baseline(b) => self.baseline_action(b),
             Action::Reset => {
                 self.settings.thresholds.nodes.clear();
                 self.apply(Action::Restore(Stored::default()));

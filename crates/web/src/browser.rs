@@ -81,23 +81,47 @@ pub fn download(file_name: &str, mime: &str, text: &str) -> Result<(), String> {
     let blob =
         Blob::new_with_str_sequence_and_options(&parts, &options).map_err(|e| js_error(&e))?;
     let url = Url::create_object_url_with_blob(&blob).map_err(|e| js_error(&e))?;
-    let anchor: HtmlAnchorElement = document
-        .create_element("a")
-        .map_err(|e| js_error(&e))?
-        .dyn_into()
-        .map_err(|_| "not an anchor element")?;
-    anchor.set_href(&url);
-    anchor.set_download(file_name);
-    anchor.set_hidden(true);
-    body.append_child(&anchor).map_err(|e| js_error(&e))?;
-    anchor.click();
-    anchor.remove();
+    click_download(&document, &body, &url, file_name)?;
     // Revoke the URL once the browser has taken the download.
     let revoke = Closure::once_into_js(move || {
         let _ = Url::revoke_object_url(&url);
     });
     let _ = window
         .set_timeout_with_callback_and_timeout_and_arguments_0(revoke.unchecked_ref(), 10_000);
+    Ok(())
+}
+
+/// A canvas's pixels as a PNG download (`toDataURL("image/png")`: the backing store, at the
+/// device's pixel ratio).
+pub fn download_png(canvas: &web_sys::HtmlCanvasElement, file_name: &str) -> Result<(), String> {
+    let document = web_sys::window()
+        .and_then(|w| w.document())
+        .ok_or("no document")?;
+    let body = document.body().ok_or("no document body")?;
+    let url = canvas
+        .to_data_url_with_type("image/png")
+        .map_err(|e| js_error(&e))?;
+    click_download(&document, &body, &url, file_name)
+}
+
+/// Follows `href` as a download named `file_name` through a hidden anchor.
+fn click_download(
+    document: &web_sys::Document,
+    body: &web_sys::HtmlElement,
+    href: &str,
+    file_name: &str,
+) -> Result<(), String> {
+    let anchor: HtmlAnchorElement = document
+        .create_element("a")
+        .map_err(|e| js_error(&e))?
+        .dyn_into()
+        .map_err(|_| "not an anchor element")?;
+    anchor.set_href(href);
+    anchor.set_download(file_name);
+    anchor.set_hidden(true);
+    body.append_child(&anchor).map_err(|e| js_error(&e))?;
+    anchor.click();
+    anchor.remove();
     Ok(())
 }
 

@@ -3,6 +3,7 @@
 pub mod advanced;
 pub mod app;
 pub mod chart;
+pub mod compare_panel;
 pub mod controls;
 pub mod demo_button;
 pub mod error_area;

@@ -11,6 +11,7 @@ use super::common::{
 };
 use super::{
     TradePoint, TradeoffView, AXIS, BACKGROUND, CURRENT, CURVE, GRID, GRID_LIGHT, INK_SOFT, SWEEP,
+    SWEEP_TEXT,
 };
 
 /// The x axis description.
@@ -55,12 +56,60 @@ fn precision_range(precisions: impl Iterator<Item = f64>) -> (f64, f64) {
     (lo - pad, 1.0 + pad)
 }
 
+/// Where the curve's points were drawn, in the area's pixels: the page's hit test for hovering
+/// and clicking the curve uses the geometry of the drawing itself.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct TradeoffFrame {
+    /// The curve's points as drawn (ordered by threshold), each with its pixel position.
+    pub points: Vec<((i32, i32), TradePoint)>,
+    /// The area's size in pixels when it was drawn.
+    pub dims: (u32, u32),
+}
+
+impl TradeoffFrame {
+    /// The index of the curve point nearest to `at` (area pixels), if one lies within
+    /// `reach` pixels.
+    pub fn nearest(&self, at: (i32, i32), reach: f64) -> Option<usize> {
+        let d2 = |(x, y): (i32, i32)| {
+            let (dx, dy) = (f64::from(x - at.0), f64::from(y - at.1));
+            dx * dx + dy * dy
+        };
+        self.points
+            .iter()
+            .enumerate()
+            .map(|(i, (p, _))| (i, d2(*p)))
+            .filter(|&(_, d)| d <= reach * reach)
+            .min_by(|a, b| a.1.total_cmp(&b.1))
+            .map(|(i, _)| i)
+    }
+
+    /// How far a pointer may be from a point and still take it: a few marker widths.
+    pub fn reach(&self) -> f64 {
+        Sizes::of_dims(self.dims.0, self.dims.1).font * 1.5
+    }
+}
+
+/// The sweep's tenths labelled on the chart (the others keep their dot only, to keep it clear).
+pub const LABELLED_TENTHS: [usize; 5] = [1, 3, 5, 7, 9];
+
 /// Draws chart 1 over the whole `area` (filling its background first). The caller presents.
 pub fn draw_tradeoff<B: DrawingBackend>(
     area: &DrawingArea<B, Shift>,
     view: &TradeoffView,
 ) -> Result<(), DrawingAreaErrorKind<B::ErrorType>> {
+    draw_tradeoff_framed(area, view).map(|_| ())
+}
+
+/// [`draw_tradeoff`], returning where the curve's points went (for the page's hit test).
+pub fn draw_tradeoff_framed<B: DrawingBackend>(
+    area: &DrawingArea<B, Shift>,
+    view: &TradeoffView,
+) -> Result<TradeoffFrame, DrawingAreaErrorKind<B::ErrorType>> {
     let s = Sizes::of(area);
+    let mut frame = TradeoffFrame {
+        points: Vec::new(),
+        dims: area.dim_in_pixel(),
+    };
     area.fill(&BACKGROUND)?;
 
     let curve: Vec<TradePoint> = view.curve.iter().filter_map(clean).collect();
@@ -137,7 +186,8 @@ pub fn draw_tradeoff<B: DrawingBackend>(
     if empty {
         let centre = ((plot.x0 + plot.x1) / 2, (plot.y0 + plot.y1) / 2);
         let style = text_at(s.font * 1.15, HPos::Center, VPos::Center).color(&INK_SOFT);
-        return area.draw_text(EMPTY_MESSAGE, &style, centre);
+        area.draw_text(EMPTY_MESSAGE, &style, centre)?;
+        return Ok(frame);
     }
 
     let xy = |p: &TradePoint| (p.specificity, p.precision);
@@ -169,6 +219,20 @@ pub fn draw_tradeoff<B: DrawingBackend>(
         });
         chart.draw_series(tenths.map(|p| Circle::new(xy(p), marker_small(s), SWEEP.filled())))?;
     }
+    // The labelled tenths (value, point), placed once the pixel mapping is known.
+    let tenth_labels: Vec<(usize, TradePoint)> = sweep
+        .as_ref()
+        .map(|(_, pts)| {
+            LABELLED_TENTHS
+                .iter()
+                .filter_map(|&k| {
+                    let t = k as f64 / 10.0;
+                    let i = pts.partition_point(|p| p.threshold <= t);
+                    Some((k, *pts.get(i.checked_sub(1)?)?))
+                })
+                .collect()
+        })
+        .unwrap_or_default();
 
     let to_px = |p: &TradePoint| {
         let (x, y) = chart.backend_coord(&(p.specificity, p.precision));
@@ -178,7 +242,28 @@ pub fn draw_tradeoff<B: DrawingBackend>(
     // Everything drawn so far, as pixels, for placing the label and the legend where they
     // cover the least.
     let curve_px: Vec<(i32, i32)> = curve.iter().map(to_px).collect();
+    frame.points = curve_px
+        .iter()
+        .copied()
+        .zip(curve.iter().copied())
+        .collect();
     let mut occupied = densify(&curve_px, s.font * 0.4);
+    // Each labelled tenth beside its dot, skipped when it would sit on an earlier one.
+    let tenth_style = text(s.small * 0.9).color(&SWEEP_TEXT);
+    let mut placed: Vec<Rect> = Vec::new();
+    for (k, p) in &tenth_labels {
+        let label = format!("0.{k}");
+        let at = to_px(p);
+        let (w, h) = measure(area, &label, &tenth_style)?;
+        let off = marker_small(s) + 2;
+        let r = Rect::at(at.0 + off, at.1 - h - off / 2, w, h);
+        if placed.iter().any(|q| q.overlaps(&r)) || !r.within(&plot) {
+            continue;
+        }
+        area.draw_text(&label, &tenth_style, (r.x0, (r.y0 + r.y1) / 2))?;
+        occupied.extend([(r.x0, r.y0), (r.x1, r.y1), (r.x0, r.y1), (r.x1, r.y0)]);
+        placed.push(r);
+    }
     if let Some((_, pts)) = &sweep {
         let sweep_px: Vec<(i32, i32)> = pts.iter().map(to_px).collect();
         occupied.extend(densify(&sweep_px, s.font * 0.4));
@@ -292,7 +377,7 @@ pub fn draw_tradeoff<B: DrawingBackend>(
     if let Some(r) = best {
         legend.draw_column(area, (r.x0, r.y0))?;
     }
-    Ok(())
+    Ok(frame)
 }
 
 #[cfg(test)]

@@ -183,6 +183,9 @@ pub enum Action {
         generation: usize,
         result: Result<Vec<u8>, String>,
     },
+    /// Pin the current settings or load a profile as the baseline to compare against, or
+    /// clear it (`crate::baseline`).
+    Baseline(crate::baseline::BaselineAction),
     /// The depth whose control the user is on: chart 1 shows its sweep.
     Focus(usize),
     Restore(Stored),

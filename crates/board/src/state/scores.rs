@@ -127,6 +127,7 @@ impl Board {
             Some((g, tracker)) if g == self.generation => Some(tracker),
             _ => None,
         };
+        let mut compared = false;
         match (drag.as_mut(), tracker) {
             // Only the focused depth moved: re-score just the rows that flip, and move them in
             // the per-node counts.
@@ -134,10 +135,23 @@ impl Board {
                 if self.caches.sweep_key.as_ref() == Some(&key) && d.depth() == depth =>
             {
                 let (tax, batch) = (&a.taxonomy, &a.batch);
+                // The comparison with a baseline moves with the same rows.
+                let baseline = self
+                    .baseline
+                    .clone()
+                    .filter(|b| b.generation == self.generation);
+                let mut comparison = baseline.as_ref().and(self.comparison.as_deref().cloned());
                 self.metrics = Some(d.set_reporting(tax, batch, t, |r, from, to| {
-                    tracker.moved(tax, batch, r, from, to)
+                    tracker.moved(tax, batch, r, from, to);
+                    if let (Some(c), Some(b)) = (comparison.as_mut(), baseline.as_ref()) {
+                        c.shift(b, tax, batch, r, from, to);
+                    }
                 }));
                 *nodes = Some((self.generation, tracker));
+                if let Some(c) = comparison {
+                    self.comparison = Some(Rc::new(c));
+                    compared = true;
+                }
             }
             (_, tracker) => {
                 // Anything else moved (another depth, a node, the rule): find the rows whose
@@ -156,6 +170,10 @@ impl Board {
         if let Some((_, tracker)) = nodes.as_ref() {
             self.node_report = Some(Rc::new(tracker.report(&a.taxonomy, &self.settings)));
             self.node_fates = Some(Rc::new(tracker.fates(&a.taxonomy)));
+        }
+        drop((drag, nodes));
+        if self.baseline.is_some() && !compared {
+            self.compare_baseline();
         }
     }
 
@@ -198,8 +216,22 @@ impl Board {
             rule: self.settings.rule.as_str().to_string(),
             marks: self
                 .current_suggestion()
-                .map(|s| s.marks.iter().map(|(l, p)| (l.to_string(), *p)).collect())
-                .unwrap_or_default(),
+                .map(|s| {
+                    s.marks
+                        .iter()
+                        .map(|(l, p)| (l.to_string(), *p))
+                        .collect::<Vec<_>>()
+                })
+                .unwrap_or_default()
+                .into_iter()
+                .chain(
+                    self.baseline
+                        .as_ref()
+                        .filter(|b| b.generation == self.generation)
+                        .and_then(|b| b.point())
+                        .map(|p| (crate::baseline::MARK_LABEL.to_string(), p)),
+                )
+                .collect(),
         }
     }
 

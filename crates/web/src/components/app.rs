@@ -8,6 +8,7 @@ use hedgerow_board::state::{Action, Slot};
 use yew::prelude::*;
 
 use super::chart::{Chart, ChartView};
+use super::compare_panel::ComparePanel;
 use super::controls::Controls;
 use super::demo_button::DemoButton;
 use super::error_area::ErrorArea;
@@ -69,6 +70,36 @@ pub fn app() -> Html {
         let icicle_focus = icicle_focus.clone();
         Callback::from(move |v: u32| icicle_focus.set(Some(v)))
     };
+
+    // The transition opened in the row inspector (baseline outcome, current outcome), and its
+    // rows under the settings in use (recounted when the comparison changes).
+    let transition = use_state(|| None::<(hedgerow_core::Outcome, hedgerow_core::Outcome)>);
+    let on_open_transition = {
+        let transition = transition.clone();
+        Callback::from(move |t| transition.set(Some(t)))
+    };
+    let on_clear_transition = {
+        let transition = transition.clone();
+        Callback::from(move |()| transition.set(None))
+    };
+    let transition_rows = {
+        let board = board.clone();
+        use_memo(
+            (
+                *transition,
+                board.comparison.clone().map(|c| Rc::as_ptr(&c) as usize),
+            ),
+            move |(t, _)| {
+                let (from, to) = (*t)?;
+                let rows = board.transition_rows(from, to)?;
+                Some((
+                    AttrValue::from(format!("from {} to {}", from.as_str(), to.as_str())),
+                    Shared(Rc::new(rows)),
+                ))
+            },
+        )
+    };
+    let on_threshold = on_action.reform(Action::SetAllDepths);
 
     let on_files = use_callback(loader.clone(), |files, loader| loader.load_files(files));
     let dragging = use_file_drop(on_files.clone());
@@ -182,7 +213,8 @@ pub fn app() -> Html {
                 <div class="right">
                     <Headline metrics={board.metrics.clone()} />
                     <section class="charts" aria-label="Charts">
-                        <Chart id="chart-tradeoff" title="Precision against specificity (information gain)" caption={sweep_caption} view={tradeoff} />
+                        <Chart id="chart-tradeoff" title="Precision against specificity (information gain)" caption={sweep_caption} view={tradeoff}
+                            on_threshold={board.metrics.is_some().then_some(on_threshold)} />
                         <Chart id="chart-stops" title="Where predictions stop"
                             caption="Share of predictions that stop at each depth (0 = the root: type unknown), by outcome."
                             view={stops} />
@@ -200,6 +232,9 @@ pub fn app() -> Html {
             <SuggestPanel suggestion={board.current_suggestion().cloned()}
                 error={board.suggestion_error.clone()} label_columns={board.label_columns()}
                 has_batch={board.active.is_some()} on_action={on_action.clone()} />
+            <ComparePanel baseline={board.baseline.clone().map(Shared)} comparison={board.comparison.clone()}
+                metrics={board.metrics.clone()} error={board.baseline_error.clone()} has_batch={board.active.is_some()}
+                on_action={on_action.clone()} on_open={on_open_transition} />
             if let (Some(a), Some(report)) = (board.active.as_ref(), board.node_report.clone()) {
                 <section class="where" aria-label="Where it fails">
                     if let Some(fates) = board.node_fates.clone() {
@@ -213,7 +248,9 @@ pub fn app() -> Html {
                     <Inspector taxonomy={Shared(a.taxonomy.clone())} batch={Shared(a.batch.clone())}
                         settings={board.settings.clone()} selected={*selected}
                         inspected={board.inspected.as_ref().map(|i| i.row)} runner_ups={board.runner_up_column()}
-                        on_action={on_action.clone()} />
+                        on_action={on_action.clone()}
+                        key={transition_rows.as_ref().as_ref().map_or("all".to_string(), |(w, _)| w.to_string())}
+                        rows={(*transition_rows).clone()} on_clear_rows={on_clear_transition} />
                 </section>
             }
             <FilesPanel notes={board.notes.clone()} errors={board.errors.clone()} set_aside={board.set_aside.clone()}

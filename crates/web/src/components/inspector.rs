@@ -6,6 +6,7 @@
 use hedgerow_board::inspect::{list_rows, row_detail, RowFilter, Source};
 use hedgerow_board::runner_up::RunnerUpColumn;
 use hedgerow_board::state::Action;
+use hedgerow_board::state::thin_thousands;
 use hedgerow_core::{Batch, Outcome, Settings, Taxonomy};
 use web_sys::HtmlSelectElement;
 use yew::prelude::*;
@@ -22,6 +23,11 @@ pub struct InspectorProps {
     pub inspected: Option<usize>,
     pub runner_ups: Option<RunnerUpColumn>,
     pub on_action: Callback<Action>,
+    /// Only these rows, with what they are (a transition opened from the comparison).
+    #[prop_or_default]
+    pub rows: Option<(AttrValue, Shared<Vec<u32>>)>,
+    #[prop_or_default]
+    pub on_clear_rows: Callback<()>,
 }
 
 const PAGE: usize = 20;
@@ -82,6 +88,7 @@ pub fn inspector(props: &InspectorProps) -> Html {
         stop_depth: *stop,
         predicted: props.selected.filter(|_| *scope == Scope::Predicted),
         label_under: props.selected.filter(|_| *scope == Scope::Labelled),
+        rows: props.rows.as_ref().map(|(_, r)| r.0.clone()),
     };
     let page = list_rows(tax, batch, &props.settings, &filter, *start, PAGE);
 
@@ -249,6 +256,12 @@ pub fn inspector(props: &InspectorProps) -> Html {
                     </select>
                 </label>
             </div>
+            if let Some((what, rows)) = &props.rows {
+                <p class="help" data-testid="inspect-transition" data-rows={rows.0.len().to_string()}>
+                    { format!("Only the {} rows that went {what}. ", thin_thousands(rows.0.len() as u64)) }
+                    <button type="button" class="link" data-testid="inspect-all-rows" onclick={props.on_clear_rows.reform(|_: MouseEvent| ())}>{ "Show all rows" }</button>
+                </p>
+            }
             <p class="help" aria-live="polite">{
                 if page.rows.is_empty() { format!("No rows from row {} on match.", *start) }
                 else { format!("Rows {}–{} that match (from row {}).", page.rows.first().map_or(0, |l| l.row), page.rows.last().map_or(0, |l| l.row), *start) }
