@@ -315,7 +315,7 @@ pub fn suggest(
     let mut candidates: Vec<(Vec<f64>, Tally, Tally)> = path
         .iter()
         .zip(&on_cal)
-        .map(|(p, c)| (p.thresholds.clone(), p.tally.clone(), c.clone()))
+        .map(|(p, c)| (p.thresholds.clone(), p.tally, *c))
         .collect();
     candidates.extend(shared_candidates(opt_fresh, cal_fresh));
     let front = front(
@@ -357,7 +357,7 @@ pub fn suggest(
     };
     let pooled: Vec<Tally> = candidates
         .iter()
-        .map(|(_, o, c)| o.clone().plus(c))
+        .map(|(_, o, c)| o.plus(c))
         .collect();
     let suggestion = last.map(|i| {
         choice(

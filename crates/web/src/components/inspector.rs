@@ -5,8 +5,8 @@
 
 use hedgerow_board::inspect::{list_rows, row_detail, RowFilter, Source};
 use hedgerow_board::runner_up::RunnerUpColumn;
-use hedgerow_board::state::Action;
 use hedgerow_board::state::thin_thousands;
+use hedgerow_board::state::Action;
 use hedgerow_core::{Batch, Outcome, Settings, Taxonomy};
 use web_sys::HtmlSelectElement;
 use yew::prelude::*;
