@@ -1,6 +1,8 @@
 //! Confidence intervals and exact tests for a proportion k/n (precision over n predictions), as
 //! the page and the command line report them: Wilson's score interval, Clopper–Pearson's exact
 //! interval and bound, the binomial tail, and the regularized incomplete beta function under them.
+//! Logarithms and exponentials come from the `libm` crate, as in the rest of the engine, so the
+//! page (wasm) and the command line compute the same bits and a suggestion's tests decide alike.
 
 /// A two-sided interval `[low, high]` for a proportion.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
@@ -47,7 +49,7 @@ pub fn ln_gamma(x: f64) -> f64 {
         1.505_632_735_149_311_6e-7,
     ];
     if x < 0.5 {
-        return ln_gamma(x + 1.0) - x.ln();
+        return ln_gamma(x + 1.0) - libm::log(x);
     }
     let x = x - 1.0;
     let mut s = C[0];
@@ -55,7 +57,7 @@ pub fn ln_gamma(x: f64) -> f64 {
         s += c / (x + i as f64);
     }
     let t = x + G + 0.5;
-    0.5 * (2.0 * std::f64::consts::PI).ln() + (x + 0.5) * t.ln() - t + s.ln()
+    0.5 * libm::log(2.0 * std::f64::consts::PI) + (x + 0.5) * libm::log(t) - t + libm::log(s)
 }
 
 /// Stirling's remainder μ(z) = ln Γ(z) − [(z − ½)·ln z − z + ½·ln 2π]. From z = 30 on, the
@@ -67,7 +69,7 @@ fn stirling_remainder(z: f64) -> f64 {
         let r = 1.0 / (z * z);
         (1.0 / 12.0 - r * (1.0 / 360.0 - r * (1.0 / 1260.0 - r / 1680.0))) / z
     } else {
-        ln_gamma(z) - ((z - 0.5) * z.ln() - z + 0.5 * (2.0 * std::f64::consts::PI).ln())
+        ln_gamma(z) - ((z - 0.5) * libm::log(z) - z + 0.5 * libm::log(2.0 * std::f64::consts::PI))
     }
 }
 
@@ -82,14 +84,14 @@ fn beta_power_terms(a: f64, b: f64, x: f64, y: f64) -> f64 {
     let u = b * x - a * y;
     let ln_ratio = |r: f64, direct: f64| {
         if r.abs() < 0.5 {
-            r.ln_1p()
+            libm::log1p(r)
         } else {
-            direct.ln()
+            libm::log(direct)
         }
     };
     let e = a * ln_ratio(u / a, x * c / a) + b * ln_ratio(-u / b, y * c / b);
     let mu = stirling_remainder(c) - stirling_remainder(a) - stirling_remainder(b);
-    (e + mu).exp() * (a * b / (2.0 * std::f64::consts::PI * c)).sqrt()
+    libm::exp(e + mu) * (a * b / (2.0 * std::f64::consts::PI * c)).sqrt()
 }
 
 /// The continued fraction of the incomplete beta function, evaluated by the modified Lentz
