@@ -355,10 +355,7 @@ pub fn suggest(
             thresholds: s.thresholds,
         }
     };
-    let pooled: Vec<Tally> = candidates
-        .iter()
-        .map(|(_, o, c)| o.plus(c))
-        .collect();
+    let pooled: Vec<Tally> = candidates.iter().map(|(_, o, c)| o.plus(c)).collect();
     let suggestion = last.map(|i| {
         choice(
             with_depths(candidates[i].0.clone()),
