@@ -10,14 +10,14 @@
 
 use std::collections::BTreeMap;
 use std::path::Path;
-use std::process::Command;
 use std::time::{Duration, Instant};
 
 use anyhow::{bail, ensure, Context};
 use serde_json::Value;
 
 use super::page::{
-    clear_dir, evaluate_files, expect_headline, fresh_demo, screenshot, wait_download,
+    clear_dir, evaluate_files, expect_headline, load_after_demo, run_cli, screenshot,
+    wait_download, wordnet_files,
 };
 use super::{Browser, Ctx, Test};
 use crate::wordnet::{self, Options};
@@ -27,30 +27,6 @@ pub fn tests() -> Vec<Test> {
         "compare: a pinned baseline beside the current setting equals hedgerow evaluate and decode; the curve reads out, adopts a threshold and downloads as PNG",
         |b, c| Box::pin(compare_and_touch(b, c)),
     )]
-}
-
-fn run_cli(
-    c: &Ctx,
-    command: &str,
-    files: &[(&str, &Path)],
-    args: &[&str],
-) -> anyhow::Result<Vec<u8>> {
-    let mut cmd = Command::new(&c.cli);
-    cmd.arg(command);
-    for (flag, path) in files {
-        cmd.arg(flag).arg(path);
-    }
-    let out = cmd
-        .args(args)
-        .output()
-        .with_context(|| format!("running {}", c.cli.display()))?;
-    ensure!(
-        out.status.success(),
-        "hedgerow {command} {args:?} failed ({}): {}",
-        out.status,
-        String::from_utf8_lossy(&out.stderr)
-    );
-    Ok(out.stdout)
 }
 
 /// Per row, its outcome from `hedgerow decode --format jsonl` under these settings.
@@ -160,21 +136,8 @@ async fn compare_and_touch(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
         },
     )
     .context("generating the WordNet batch")?;
-    let f = vec![
-        ("--taxonomy", g.taxonomy.as_path()),
-        ("--logits", g.logits.as_path()),
-        ("--labels", g.labels.as_path()),
-        (
-            "--objectness",
-            g.objectness
-                .as_deref()
-                .context("the batch has objectness")?,
-        ),
-    ];
-    fresh_demo(b, c, &c.http_url).await?;
-    let paths: Vec<&Path> = f.iter().map(|(_, p)| *p).collect();
-    b.upload_files("file-input", &paths).await?;
-    expect_headline(b, &evaluate_files(c, &f, &[])?, "the WordNet batch").await?;
+    let f = wordnet_files(&g)?;
+    load_after_demo(b, c, &f).await?;
 
     // Pin the defaults, then tune depth 2 and the object threshold.
     b.click("pin-baseline").await?;

@@ -9,13 +9,13 @@
 
 use std::collections::BTreeMap;
 use std::path::Path;
-use std::process::Command;
 
 use anyhow::{ensure, Context};
 use serde_json::{json, Value};
 
 use super::page::{
-    clear_dir, evaluate_files, expect_headline, fresh_demo, screenshot, wait_download,
+    clear_dir, evaluate_files, expect_headline, fresh_demo, load_after_demo, run_cli, screenshot,
+    wait_download, wordnet_files,
 };
 use super::{Browser, Ctx, Test};
 use crate::wordnet::{self, Generated, Options};
@@ -49,44 +49,6 @@ fn batch(c: &Ctx) -> anyhow::Result<Generated> {
         },
     )
     .context("generating the WordNet batch")
-}
-
-fn files(g: &Generated) -> anyhow::Result<Vec<(&'static str, &Path)>> {
-    Ok(vec![
-        ("--taxonomy", g.taxonomy.as_path()),
-        ("--logits", g.logits.as_path()),
-        ("--labels", g.labels.as_path()),
-        (
-            "--objectness",
-            g.objectness
-                .as_deref()
-                .context("the batch has objectness")?,
-        ),
-    ])
-}
-
-fn run_cli(
-    c: &Ctx,
-    command: &str,
-    files: &[(&str, &Path)],
-    args: &[&str],
-) -> anyhow::Result<Vec<u8>> {
-    let mut cmd = Command::new(&c.cli);
-    cmd.arg(command);
-    for (flag, path) in files {
-        cmd.arg(flag).arg(path);
-    }
-    let out = cmd
-        .args(args)
-        .output()
-        .with_context(|| format!("running {}", c.cli.display()))?;
-    ensure!(
-        out.status.success(),
-        "hedgerow {command} {args:?} failed ({}): {}",
-        out.status,
-        String::from_utf8_lossy(&out.stderr)
-    );
-    Ok(out.stdout)
 }
 
 /// One node's numbers as a comparable line: id, depth, threshold, counts, precision, wrong.
@@ -219,18 +181,10 @@ async fn download(b: &Browser, id: &str, name: &str) -> anyhow::Result<Vec<u8>> 
     Ok(std::fs::read(path)?)
 }
 
-async fn load(b: &Browser, c: &Ctx, files: &[(&str, &Path)]) -> anyhow::Result<()> {
-    fresh_demo(b, c, &c.http_url).await?;
-    let want = evaluate_files(c, files, &[])?;
-    let paths: Vec<&Path> = files.iter().map(|(_, p)| *p).collect();
-    b.upload_files("file-input", &paths).await?;
-    expect_headline(b, &want, "the WordNet batch").await
-}
-
 async fn table_equals_cli(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     let g = batch(c)?;
-    let f = files(&g)?;
-    load(b, c, &f).await?;
+    let f = wordnet_files(&g)?;
+    load_after_demo(b, c, &f).await?;
     let want = cli_nodes(c, &f, &[])?;
     ensure!(
         want.len() == g.nodes + 1,
@@ -426,7 +380,7 @@ async fn runner_ups_demo_and_bundle(b: &Browser, c: &Ctx) -> anyhow::Result<()> 
     .context("generating the WordNet bundle")?;
     let bundle = g.bundle.as_deref().context("the bundle")?;
     let f = [("--taxonomy", g.taxonomy.as_path()), ("--logits", bundle)];
-    load(b, c, &f).await?;
+    load_after_demo(b, c, &f).await?;
     b.click("inspect-row-0").await?;
     let mut note = String::new();
     for _ in 0..100 {
@@ -453,8 +407,8 @@ async fn runner_ups_demo_and_bundle(b: &Browser, c: &Ctx) -> anyhow::Result<()> 
 
 async fn inspector_and_view(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
     let g = batch(c)?;
-    let f = files(&g)?;
-    load(b, c, &f).await?;
+    let f = wordnet_files(&g)?;
+    load_after_demo(b, c, &f).await?;
     b.set_value("threshold-depth-3", "0.2").await?;
     let args = ["--thresholds", "0.5,0.5,0.2,0.5,0.5"];
     expect_headline(b, &evaluate_files(c, &f, &args)?, "depth 3 at 0.2").await?;

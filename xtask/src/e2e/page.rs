@@ -169,6 +169,64 @@ pub(super) fn evaluate_files(
     Headline::from_json(&m)
 }
 
+/// A generated WordNet batch's files as the command line's flags (`--taxonomy` …,
+/// `--objectness`), the order the page is given them in.
+pub(super) fn wordnet_files(
+    g: &crate::wordnet::Generated,
+) -> anyhow::Result<Vec<(&'static str, &Path)>> {
+    Ok(vec![
+        ("--taxonomy", g.taxonomy.as_path()),
+        ("--logits", g.logits.as_path()),
+        ("--labels", g.labels.as_path()),
+        (
+            "--objectness",
+            g.objectness
+                .as_deref()
+                .context("the batch has objectness")?,
+        ),
+    ])
+}
+
+/// `hedgerow COMMAND` on these files (flag and path) with these arguments: its stdout, or an
+/// error with its stderr when it fails.
+pub(super) fn run_cli(
+    c: &Ctx,
+    command: &str,
+    files: &[(&str, &Path)],
+    args: &[&str],
+) -> anyhow::Result<Vec<u8>> {
+    let mut cmd = Command::new(&c.cli);
+    cmd.arg(command);
+    for (flag, path) in files {
+        cmd.arg(flag).arg(path);
+    }
+    let out = cmd
+        .args(args)
+        .output()
+        .with_context(|| format!("running {}", c.cli.display()))?;
+    ensure!(
+        out.status.success(),
+        "hedgerow {command} {args:?} failed ({}): {}",
+        out.status,
+        String::from_utf8_lossy(&out.stderr)
+    );
+    Ok(out.stdout)
+}
+
+/// Open the page fresh on the demo, then give it these files through the file input and wait
+/// until it shows the command line's numbers for them.
+pub(super) async fn load_after_demo(
+    b: &Browser,
+    c: &Ctx,
+    files: &[(&str, &Path)],
+) -> anyhow::Result<()> {
+    fresh_demo(b, c, &c.http_url).await?;
+    let want = evaluate_files(c, files, &[])?;
+    let paths: Vec<&Path> = files.iter().map(|(_, p)| *p).collect();
+    b.upload_files("file-input", &paths).await?;
+    expect_headline(b, &want, "the batch after the demo").await
+}
+
 /// The CLI's headline for these settings flags.
 fn expected(c: &Ctx, args: &[&str]) -> anyhow::Result<Headline> {
     let mut all = args.to_vec();

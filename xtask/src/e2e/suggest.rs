@@ -12,7 +12,9 @@ use std::process::Command;
 use anyhow::{ensure, Context};
 use serde_json::Value;
 
-use super::page::{evaluate_files, expect_headline, fresh_demo, save_and_fetch, screenshot};
+use super::page::{
+    evaluate_files, expect_headline, load_after_demo, save_and_fetch, screenshot, wordnet_files,
+};
 use super::{Browser, Ctx, Test};
 use crate::wordnet::{self, Options};
 
@@ -105,21 +107,8 @@ async fn same_as_cli(b: &Browser, c: &Ctx) -> anyhow::Result<()> {
         },
     )
     .context("generating the WordNet batch")?;
-    let f = vec![
-        ("--taxonomy", g.taxonomy.as_path()),
-        ("--logits", g.logits.as_path()),
-        ("--labels", g.labels.as_path()),
-        (
-            "--objectness",
-            g.objectness
-                .as_deref()
-                .context("the batch has objectness")?,
-        ),
-    ];
-    fresh_demo(b, c, &c.http_url).await?;
-    let paths: Vec<&Path> = f.iter().map(|(_, p)| *p).collect();
-    b.upload_files("file-input", &paths).await?;
-    expect_headline(b, &evaluate_files(c, &f, &[])?, "the WordNet batch").await?;
+    let f = wordnet_files(&g)?;
+    load_after_demo(b, c, &f).await?;
 
     let flags = [
         "--min-precision",
